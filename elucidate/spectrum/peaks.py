@@ -1,0 +1,675 @@
+"""13C peak lists: parsing, merging of duplicate lines and checks against a formula.
+
+A peak list is what a chemist reads off a processed 13C spectrum: one line
+per resolved signal with its chemical shift in ppm, optionally the number of
+attached hydrogens from DEPT (or from an off-resonance/multiplicity-edited
+experiment: s/d/t/q) and optionally the number of carbons under the line.
+
+Accepted text forms
+-------------------
+Inline, separated by commas, semicolons or newlines::
+
+    206.9 C, 45.2 CH2, 29.9 CH3
+
+A plain file, one peak per line, ``shift [multiplicity] [count]``, with ``#``
+comments and blank lines ignored::
+
+    # sample QC-0142, CDCl3
+    128.4  CH   2
+    77.2   ?
+
+CSV or TSV with a header line naming the columns (case-insensitive):
+``shift`` (also ``ppm``, ``delta``), ``mult``/``multiplicity`` (also
+``dept``) and ``count`` (also ``n``, ``carbons``); other columns are ignored
+with a warning.
+
+Multiplicity tokens (case-insensitive): ``C``, ``CH``, ``CH2``, ``CH3``; the
+off-resonance letters ``s``, ``d``, ``t``, ``q``; ``CH0`` and ``Cq`` for a
+carbon without hydrogen; ``?`` (or nothing) for unknown.  A count may be
+written ``2``, ``2C`` or ``x2``.
+
+Identical lines (same shift and multiplicity) are merged into one line with
+a warning; their counts add when every copy carries a count.
+
+All problems raise :class:`elucidate.errors.InputError` with a one-line
+message naming the peak (1-based), the value received and how to fix it.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+import os
+import re
+from dataclasses import dataclass, field, replace
+
+from ..errors import InputError
+
+__all__ = [
+    "Peak",
+    "PeakList",
+    "parse_peaks",
+    "read_peaks",
+    "check_against_formula",
+    "peaks_from_records",
+    "MULTIPLICITY_TOKENS",
+    "SHIFT_RANGE",
+]
+
+#: Accepted chemical-shift window in ppm (inclusive).  13C shifts of organic
+#: compounds fall well inside it (common practice, no source).
+SHIFT_RANGE: tuple[float, float] = (-20.0, 250.0)
+
+#: Multiplicity token (lower case) -> number of attached hydrogens; ``None``
+#: means unknown.
+MULTIPLICITY_TOKENS: dict[str, int | None] = {
+    "c": 0,
+    "s": 0,
+    "ch0": 0,
+    "cq": 0,
+    "ch": 1,
+    "d": 1,
+    "ch1": 1,
+    "ch2": 2,
+    "t": 2,
+    "ch3": 3,
+    "q": 3,
+    "?": None,
+}
+
+_NAMES = {0: "C", 1: "CH", 2: "CH2", 3: "CH3", None: "?"}
+_ACCEPTED = "C, CH, CH2, CH3, s, d, t, q, Cq, ?"
+_SUBSCRIPTS = str.maketrans("₀₁₂₃", "0123")
+_PATH_SUFFIXES = (".txt", ".csv", ".tsv", ".jdx", ".dx", ".jcamp", ".dat")
+_JCAMP_SUFFIXES = (".jdx", ".dx", ".jcamp")
+
+
+@dataclass(frozen=True)
+class Peak:
+    """One observed 13C line.
+
+    Attributes
+    ----------
+    shift : float
+        Chemical shift in ppm.
+    hydrogens : int or None
+        Attached hydrogens (0-3) from the multiplicity; ``None`` = unknown.
+    count : int or None
+        Number of carbons under this line; ``None`` = not given.
+    """
+
+    shift: float
+    hydrogens: int | None
+    count: int | None = None
+
+    def __post_init__(self) -> None:
+        if isinstance(self.shift, bool) or not isinstance(self.shift, (int, float)):
+            raise InputError(f"peak shift {self.shift!r} is not a number; give the shift in ppm")
+        if not math.isfinite(self.shift):
+            raise InputError(f"peak shift {self.shift!r} is not finite; give the shift in ppm")
+        if self.hydrogens is not None and (
+            isinstance(self.hydrogens, bool)
+            or not isinstance(self.hydrogens, int)
+            or not 0 <= self.hydrogens <= 3
+        ):
+            raise InputError(
+                f"peak at {self.shift:g} ppm: hydrogens {self.hydrogens!r} must be 0, 1, 2, 3 or None"
+            )
+        if self.count is not None and (
+            isinstance(self.count, bool) or not isinstance(self.count, int) or self.count < 1
+        ):
+            raise InputError(
+                f"peak at {self.shift:g} ppm: count {self.count!r} must be a positive integer or None"
+            )
+
+    @property
+    def multiplicity(self) -> str:
+        """``"C"``, ``"CH"``, ``"CH2"``, ``"CH3"`` or ``"?"``."""
+        return _NAMES[self.hydrogens]
+
+    def describe(self) -> str:
+        """Short text such as ``"128.4 CH x2"``."""
+        text = f"{self.shift:g} {self.multiplicity}"
+        if self.count is not None:
+            text += f" x{self.count}"
+        return text
+
+
+@dataclass(frozen=True)
+class PeakList:
+    """An ordered list of observed lines plus warnings collected on the way.
+
+    Attributes
+    ----------
+    peaks : tuple of Peak
+        In the order given (duplicates merged at the first occurrence).
+    warnings : tuple of str
+        Human-readable notes (merged duplicates, dropped solvent lines, ...).
+    """
+
+    peaks: tuple[Peak, ...]
+    warnings: tuple[str, ...] = field(default=())
+
+    def __len__(self) -> int:
+        return len(self.peaks)
+
+    def __iter__(self):
+        return iter(self.peaks)
+
+    @property
+    def n_lines(self) -> int:
+        """Number of lines."""
+        return len(self.peaks)
+
+    @property
+    def shifts(self) -> tuple[float, ...]:
+        return tuple(p.shift for p in self.peaks)
+
+    @property
+    def has_multiplicities(self) -> bool:
+        """True when every line has a known multiplicity."""
+        return bool(self.peaks) and all(p.hydrogens is not None for p in self.peaks)
+
+    @property
+    def has_counts(self) -> bool:
+        """True when every line has a carbon count."""
+        return bool(self.peaks) and all(p.count is not None for p in self.peaks)
+
+    @property
+    def min_carbons(self) -> int:
+        """Fewest carbons the list can stand for (a line without count = 1)."""
+        return sum(p.count or 1 for p in self.peaks)
+
+    @property
+    def min_carbon_hydrogens(self) -> int:
+        """Fewest H on carbon implied by the known multiplicities."""
+        return sum((p.hydrogens or 0) * (p.count or 1) for p in self.peaks)
+
+    def with_warnings(self, *messages: str) -> "PeakList":
+        """A copy with ``messages`` appended to the warnings."""
+        return replace(self, warnings=self.warnings + tuple(messages))
+
+    def without_multiplicities(self) -> "PeakList":
+        """A copy with every multiplicity unknown (lines that become identical merge)."""
+        return _merge(tuple(replace(p, hydrogens=None) for p in self.peaks), self.warnings, "line")
+
+    def without_counts(self) -> "PeakList":
+        """A copy with every carbon count removed."""
+        return replace(self, peaks=tuple(replace(p, count=None) for p in self.peaks))
+
+    def to_records(self) -> list[dict]:
+        """``[{"shift", "mult", "count"}, ...]`` (``mult`` None when unknown)."""
+        return [
+            {"shift": p.shift, "mult": None if p.hydrogens is None else p.multiplicity, "count": p.count}
+            for p in self.peaks
+        ]
+
+
+# ----------------------------------------------------------------------------
+# token readers
+
+
+def _read_shift(token: str, where: str) -> float:
+    tok = token.strip().strip("()")
+    try:
+        value = float(tok)
+    except ValueError:
+        hint = ""
+        if tok.lower().translate(_SUBSCRIPTS) in MULTIPLICITY_TOKENS:
+            hint = (
+                "; it looks like a multiplicity: a CSV/TSV file needs a header line "
+                "naming its columns (shift,mult,count)"
+            )
+        elif "," in tok:
+            hint = "; use a decimal point, not a comma"
+        raise InputError(
+            f"{where}: shift {token!r} is not a number; write the shift in ppm, e.g. 128.4{hint}"
+        ) from None
+    if not math.isfinite(value):
+        raise InputError(f"{where}: shift {token!r} is not a finite number; write the shift in ppm")
+    lo, hi = SHIFT_RANGE
+    if not lo <= value <= hi:
+        raise InputError(
+            f"{where}: shift {value:g} ppm is outside {lo:g}...{hi:g} ppm; check for a typo "
+            "or a value given in Hz instead of ppm"
+        )
+    return value
+
+
+def _read_mult(token: str, where: str) -> int | None:
+    key = token.strip().strip("()").lower().translate(_SUBSCRIPTS)
+    if key == "":
+        return None
+    if key not in MULTIPLICITY_TOKENS:
+        raise InputError(
+            f"{where}: unknown multiplicity {token!r}; use one of {_ACCEPTED} (? = unknown)"
+        )
+    return MULTIPLICITY_TOKENS[key]
+
+
+_COUNT_RE = re.compile(r"^(?:[x×*]\s*)?(\d+)\s*c?$", re.IGNORECASE)
+
+
+def _read_count(token: str, where: str) -> int | None:
+    tok = token.strip().strip("()").strip()
+    if tok == "":
+        return None
+    m = _COUNT_RE.match(tok)
+    if not m or int(m.group(1)) < 1:
+        raise InputError(
+            f"{where}: count {token!r} is not a positive integer; give the number of "
+            "carbons under the line (1, 2, ...) or leave it out"
+        )
+    return int(m.group(1))
+
+
+def _looks_like_count(token: str) -> bool:
+    return bool(_COUNT_RE.match(token.strip().strip("()").strip()))
+
+
+def _peak_from_tokens(tokens: list[str], where: str) -> Peak:
+    shift = _read_shift(tokens[0], where)
+    rest = tokens[1:]
+    hydrogens: int | None = None
+    count: int | None = None
+    if len(rest) > 2:
+        raise InputError(
+            f"{where}: too many fields {' '.join(tokens)!r}; write 'shift [multiplicity] [count]'"
+        )
+    if len(rest) == 2:
+        hydrogens = _read_mult(rest[0], where)
+        count = _read_count(rest[1], where)
+    elif len(rest) == 1:
+        # A lone field is a count if it reads as one, else a multiplicity.
+        if _looks_like_count(rest[0]) and rest[0].strip().lower() not in MULTIPLICITY_TOKENS:
+            count = _read_count(rest[0], where)
+        else:
+            hydrogens = _read_mult(rest[0], where)
+    return Peak(shift, hydrogens, count)
+
+
+_SPLIT_SHIFT_MULT = re.compile(r"^([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)\(([^)]*)\)(.*)$")
+
+
+def _tokenize(item: str) -> list[str]:
+    """Whitespace tokens; ``128.4(CH)`` is split into ``128.4`` and ``CH``."""
+    tokens: list[str] = []
+    for tok in item.split():
+        m = _SPLIT_SHIFT_MULT.match(tok)
+        if m:
+            tokens.append(m.group(1))
+            tokens.append(m.group(2))
+            if m.group(3):
+                tokens.append(m.group(3))
+        else:
+            tokens.append(tok)
+    return tokens
+
+
+# ----------------------------------------------------------------------------
+# merging
+
+
+def _merge(peaks: tuple[Peak, ...], warnings: tuple[str, ...], what: str = "line") -> PeakList:
+    """Merge identical (shift, hydrogens) entries at the first occurrence."""
+    groups: dict[tuple[float, int | None], list[int]] = {}
+    for i, p in enumerate(peaks):
+        groups.setdefault((p.shift, p.hydrogens), []).append(i)
+    out: list[Peak] = []
+    notes: list[str] = []
+    for key, idx in groups.items():
+        first = peaks[idx[0]]
+        if len(idx) == 1:
+            out.append(first)
+            continue
+        counts = [peaks[i].count for i in idx]
+        total = sum(counts) if all(c is not None for c in counts) else None
+        out.append(Peak(first.shift, first.hydrogens, total))
+        numbers = ", ".join(str(i + 1) for i in idx)
+        if total is not None:
+            tail = f"counts added to {total}"
+        else:
+            tail = "count left unspecified (add a count column to say how many carbons share it)"
+        notes.append(
+            f"duplicate {what}s {numbers} ({first.shift:g} ppm {first.multiplicity}) merged into one line; {tail}"
+        )
+    return PeakList(tuple(out), tuple(warnings) + tuple(notes))
+
+
+# ----------------------------------------------------------------------------
+# text parsing
+
+_SHIFT_COLS = {"shift", "shifts", "shiftppm", "ppm", "delta", "deltappm", "δ", "δppm", "cshift", "13c"}
+_MULT_COLS = {"mult", "multiplicity", "dept", "mult.", "multiplicities"}
+_COUNT_COLS = {"count", "counts", "n", "carbons", "nc", "ncarbons", "numc"}
+
+
+def _norm_col(name: str) -> str:
+    return re.sub(r"[\s_\-()\[\]]", "", name.strip().lower())
+
+
+def _content_lines(text: str) -> list[tuple[int, str]]:
+    lines = []
+    for n, raw in enumerate(text.splitlines(), start=1):
+        line = raw.split("#", 1)[0].strip()
+        if line:
+            lines.append((n, line))
+    return lines
+
+
+def _is_shift_col(c: str) -> bool:
+    return c in _SHIFT_COLS or "shift" in c or c.startswith(("ppm", "δ"))
+
+
+def _is_mult_col(c: str) -> bool:
+    return c in _MULT_COLS or c.startswith("multiplicit")
+
+
+def _is_header(line: str) -> bool:
+    """A header is a first row of words, none a number or a multiplicity."""
+    fields = [f.strip() for f in re.split(r"[,\t;]", line) if f.strip()]
+    words = [w for w in re.split(r"[,\t;\s]+", line) if w]
+    for w in words:
+        try:
+            float(w.strip("()"))
+            return False
+        except ValueError:
+            pass
+    norms = [_norm_col(w) for w in words]
+    if any(_is_shift_col(c) or _is_mult_col(c) or c in _COUNT_COLS for c in norms):
+        # "C" alone or "128 CH" never get here; a row of multiplicity
+        # tokens only is not a header either.
+        return not all(c.translate(_SUBSCRIPTS) in MULTIPLICITY_TOKENS for c in norms)
+    return len(fields) >= 2 and all(
+        re.search(r"[^\W\d_]", f) and _norm_col(f).translate(_SUBSCRIPTS) not in MULTIPLICITY_TOKENS
+        for f in fields
+    )
+
+
+def _parse_table(lines: list[tuple[int, str]]) -> PeakList:
+    header_line = lines[0][1]
+    delimiter = "\t" if "\t" in header_line else (";" if ";" in header_line and "," not in header_line else ",")
+    if delimiter == "," and "," not in header_line:
+        delimiter = None  # whitespace-separated columns
+    def split(line: str) -> list[str]:
+        if delimiter is None:
+            return line.split()
+        return [f.strip() for f in next(csv.reader(io.StringIO(line), delimiter=delimiter))]
+
+    header = split(header_line)
+    cols = [_norm_col(h) for h in header]
+    shift_i = mult_i = count_i = None
+    ignored = []
+    for i, c in enumerate(cols):
+        if _is_shift_col(c):
+            shift_i = i if shift_i is None else shift_i
+        elif _is_mult_col(c):
+            mult_i = i if mult_i is None else mult_i
+        elif c in _COUNT_COLS:
+            count_i = i if count_i is None else count_i
+        else:
+            ignored.append(header[i])
+    if shift_i is None:
+        raise InputError(
+            f"table header {header_line!r} (line {lines[0][0]}) has no shift column; "
+            "name the columns shift,mult,count (mult and count optional)"
+        )
+    warnings = []
+    if ignored:
+        warnings.append("peak table columns ignored: " + ", ".join(repr(c) for c in ignored))
+    peaks = []
+    for k, (lineno, line) in enumerate(lines[1:], start=1):
+        fields = split(line)
+        where = f"peak {k} (line {lineno})"
+        if len(fields) > len(header) and any(f for f in fields[len(header):]):
+            raise InputError(
+                f"{where}: {len(fields)} fields but the header names {len(header)}; "
+                "check the delimiter and the header"
+            )
+        def get(i):
+            return fields[i] if i is not None and i < len(fields) else ""
+        if get(shift_i) == "":
+            raise InputError(f"{where}: the shift field is empty; every row needs a shift in ppm")
+        shift = _read_shift(get(shift_i), where)
+        peaks.append(Peak(shift, _read_mult(get(mult_i), where), _read_count(get(count_i), where)))
+    if not peaks:
+        raise InputError("peak table has a header but no rows; add one row per peak below the header")
+    return _merge(tuple(peaks), tuple(warnings))
+
+
+def parse_peaks(text: str) -> PeakList:
+    """Parse a 13C peak list from text.
+
+    Parameters
+    ----------
+    text : str
+        Inline text (``"206.9 C, 45.2 CH2, 29.9 CH3"``: items separated by
+        commas, semicolons or newlines), the content of a plain peak file
+        (``shift [mult] [count]`` per line, ``#`` comments), or CSV/TSV with
+        a header line naming ``shift``, ``mult``/``multiplicity``, ``count``.
+
+    Returns
+    -------
+    PeakList
+        Lines in the given order, identical lines merged (with a warning).
+
+    Raises
+    ------
+    InputError
+        Empty list, malformed number, unknown multiplicity, bad count,
+        shift outside -20...250 ppm, header without a shift column.
+
+    Examples
+    --------
+    >>> pl = parse_peaks("206.9 C, 45.2 CH2, 29.9 CH3")
+    >>> [p.multiplicity for p in pl.peaks]
+    ['C', 'CH2', 'CH3']
+    """
+    if not isinstance(text, str):
+        raise InputError(f"peak list must be text, got {type(text).__name__}")
+    text = text.lstrip("\ufeff")
+    lines = _content_lines(text)
+    if not lines:
+        raise InputError(
+            "peak list is empty; give at least one shift, e.g. --peaks \"128.4 CH, 77.2 C\" or a peak file"
+        )
+    if _is_header(lines[0][1]):
+        return _parse_table(lines)
+    peaks: list[Peak] = []
+    k = 0
+    multi_line = len(lines) > 1
+    for lineno, line in lines:
+        for item in re.split(r"[,;]", line):
+            if not item.strip():
+                continue
+            k += 1
+            where = f"peak {k} (line {lineno})" if multi_line else f"peak {k}"
+            peaks.append(_peak_from_tokens(_tokenize(item), where))
+    if not peaks:
+        raise InputError("peak list is empty; give at least one shift in ppm")
+    return _merge(tuple(peaks), ())
+
+
+def _looks_like_path(source: str) -> bool:
+    s = source.strip()
+    if "\n" in s:
+        return False
+    return s.lower().endswith(_PATH_SUFFIXES) or "/" in s or "\\" in s
+
+
+def read_peaks(source: str) -> PeakList:
+    """Read a peak list from a file path or from inline text.
+
+    Parameters
+    ----------
+    source : str
+        Path to an existing file (UTF-8 text; ``.jdx``/``.dx``/``.jcamp``
+        files are read as JCAMP-DX), or inline peak text.
+
+    Returns
+    -------
+    PeakList
+
+    Raises
+    ------
+    InputError
+        A path-like string that does not exist ("peak file X not found"), an
+        unreadable or non-UTF-8 file, or any :func:`parse_peaks` error.
+    """
+    if not isinstance(source, str) or not source.strip():
+        raise InputError(
+            "peak list is empty; give a peak file or inline peaks such as \"128.4 CH, 77.2 C\""
+        )
+    path = source.strip()
+    if "\n" not in path and os.path.exists(path):
+        if os.path.isdir(path):
+            raise InputError(f"peak file {path} is a directory; give the path of a peak file")
+        if path.lower().endswith(_JCAMP_SUFFIXES):
+            from .jcamp import peaks_from_jcamp
+
+            return peaks_from_jcamp(path)
+        try:
+            with open(path, "rb") as fh:
+                data = fh.read()
+        except OSError as exc:
+            raise InputError(f"cannot read peak file {path}: {exc.strerror or exc}; check its permissions") from None
+        try:
+            text = data.decode("utf-8-sig")
+        except UnicodeDecodeError:
+            raise InputError(
+                f"peak file {path} is not UTF-8 text; save it as plain text (UTF-8)"
+            ) from None
+        if data[:6].upper().startswith(b"##") or "##TITLE" in text[:200].upper():
+            from .jcamp import peaks_from_jcamp
+
+            return peaks_from_jcamp(path)
+        try:
+            return parse_peaks(text)
+        except InputError as exc:
+            raise InputError(f"peak file {path}: {exc}") from None
+    if _looks_like_path(path):
+        raise InputError(f"peak file {path} not found; check the path (or give the peaks inline)")
+    return parse_peaks(source)
+
+
+def peaks_from_records(records) -> PeakList:
+    """Build a peak list from records ``{"shift", "mult", "count"}``.
+
+    Parameters
+    ----------
+    records : iterable of dict
+        ``shift`` (number, required), ``mult`` (a multiplicity token or
+        None/absent = unknown), ``count`` (positive int or None/absent).
+
+    Returns
+    -------
+    PeakList
+        Identical lines merged with a warning.
+    """
+    if isinstance(records, (str, bytes)) or not hasattr(records, "__iter__"):
+        raise InputError("peak records must be a list of objects with shift, mult and count")
+    peaks = []
+    for k, rec in enumerate(records, start=1):
+        where = f"peak record {k}"
+        if not isinstance(rec, dict):
+            raise InputError(f"{where}: expected an object with shift/mult/count, got {rec!r}")
+        if "shift" not in rec or rec["shift"] is None:
+            raise InputError(f"{where}: no shift; every record needs a 'shift' in ppm")
+        shift = rec["shift"]
+        if isinstance(shift, bool) or not isinstance(shift, (int, float, str)):
+            raise InputError(f"{where}: shift {shift!r} is not a number; give the shift in ppm")
+        shift_v = _read_shift(str(shift), where)
+        mult = rec.get("mult", rec.get("multiplicity"))
+        if mult is not None and not isinstance(mult, str):
+            raise InputError(f"{where}: multiplicity {mult!r} must be text such as CH2 or null")
+        hyd = None if mult is None else _read_mult(mult, where)
+        count = rec.get("count")
+        if count is not None:
+            if isinstance(count, bool) or not isinstance(count, int) or count < 1:
+                raise InputError(
+                    f"{where}: count {count!r} is not a positive integer; give the number of carbons or null"
+                )
+        peaks.append(Peak(shift_v, hyd, count))
+    if not peaks:
+        raise InputError("peak list is empty; give at least one peak record")
+    return _merge(tuple(peaks), (), "record")
+
+
+# ----------------------------------------------------------------------------
+# consistency with the formula
+
+_H_BEARING_HETERO = ("N", "O", "S", "P", "Si", "B", "Se")
+
+
+def check_against_formula(peaks: PeakList, formula) -> PeakList:
+    """Check a peak list against a molecular formula.
+
+    Checks (each failure raises :class:`InputError`):
+
+    * no more lines than carbons;
+    * the carbons implied (count, or 1 per line without count) do not exceed
+      the formula's carbons; when every line has a count they must equal it;
+    * the hydrogens implied by the multiplicities (H per line x count) do
+      not exceed the formula's H; when every line has both a multiplicity
+      and a count, the H left over must be placeable on N/O/S/P/Si/B/Se.
+
+    Parameters
+    ----------
+    peaks : PeakList
+    formula : Formula or str
+
+    Returns
+    -------
+    PeakList
+        The same lines with informative warnings appended.
+    """
+    from ..formula import Formula, parse_formula
+
+    if isinstance(formula, str):
+        formula = parse_formula(formula)
+    if not isinstance(formula, Formula):
+        raise InputError(f"formula must be a Formula or text, got {type(formula).__name__}")
+    if not isinstance(peaks, PeakList):
+        raise InputError(f"peaks must be a PeakList, got {type(peaks).__name__}")
+    if not peaks.peaks:
+        raise InputError("peak list is empty; give at least one shift")
+    nc, nh, f = formula.carbons, formula.hydrogens, formula.hill
+    if peaks.n_lines > nc:
+        raise InputError(
+            f"{peaks.n_lines} peak lines but formula {f} has only {nc} carbons; remove solvent "
+            "or impurity lines (see --solvent) or check the formula"
+        )
+    if peaks.has_counts:
+        total = peaks.min_carbons
+        if total != nc:
+            raise InputError(
+                f"peak counts add up to {total} carbons but formula {f} has {nc}; correct the "
+                "counts (or leave counts out where unsure)"
+            )
+    elif peaks.min_carbons > nc:
+        raise InputError(
+            f"peak counts (a line without count = 1) add up to {peaks.min_carbons} carbons but "
+            f"formula {f} has only {nc}; correct the counts"
+        )
+    h_c = peaks.min_carbon_hydrogens
+    if h_c > nh:
+        raise InputError(
+            f"the multiplicities imply at least {h_c} H on carbon but formula {f} has {nh} H; "
+            "check the DEPT assignments (C/CH/CH2/CH3), the counts or the formula"
+        )
+    warnings: list[str] = []
+    if peaks.has_counts and peaks.has_multiplicities:
+        rest = nh - h_c
+        hosts = [el for el in _H_BEARING_HETERO if formula.count(el)]
+        if rest > 0 and not hosts:
+            raise InputError(
+                f"the multiplicities put {h_c} H on carbon but formula {f} has {nh} H and no atom "
+                "(N, O, S, ...) that could carry the other "
+                f"{rest}; check the DEPT assignments or the formula"
+            )
+        if rest > 0:
+            warnings.append(
+                f"{rest} H not on carbon by the DEPT data: expect OH/NH/SH-type hydrogens"
+            )
+    return peaks.with_warnings(*warnings) if warnings else peaks
