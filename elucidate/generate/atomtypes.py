@@ -1,0 +1,191 @@
+"""Stage 1 of generation: distribute hydrogens and valences over the heavy atoms.
+
+A constitution is built in two stages.  This module does the first: it lists
+every multiset of *atom types* (element, valence, hydrogen count) that can
+realise a formula.  Each type fixes how many bond orders the atom spends on
+other heavy atoms (its *degree* ``valence - hydrogens``); stage 2
+(:mod:`elucidate.generate.assembly`) then builds every connected graph with
+exactly those degrees.
+
+Splitting the search like this is the classical two-level approach of
+constitutional generators (see e.g. Faulon, J. Chem. Inf. Comput. Sci. 1994,
+34, 1204, on degree-sequence based enumeration; from memory): the type
+multisets are few and cheap to list, and within one multiset atoms of the same
+type are interchangeable, which stage 2 exploits for symmetry breaking.
+
+Examples
+--------
+>>> from elucidate.formula import parse_formula
+>>> dists = list(type_distributions(parse_formula("C2H6O")))
+>>> sorted(tuple((t.element, t.hydrogens) for t in d) for d in dists)
+[(('C', 2), ('C', 3), ('O', 1)), (('C', 3), ('C', 3), ('O', 0))]
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import combinations_with_replacement
+from typing import Callable, Iterator, Mapping
+
+from ..formula import VALENCES, Formula
+
+__all__ = ["AtomType", "type_distributions", "STANDARD_VALENCES", "WIDE_VALENCES"]
+
+#: Lowest neutral valence of each element: what ``isomers`` uses by default.
+STANDARD_VALENCES: dict[str, tuple[int, ...]] = {el: (v[0],) for el, v in VALENCES.items()}
+#: S 2/4/6 and P 3/5 as well (sulfoxides, sulfones, phosphates ...).
+WIDE_VALENCES: dict[str, tuple[int, ...]] = dict(VALENCES)
+
+
+@dataclass(frozen=True, order=True)
+class AtomType:
+    """One heavy atom's element, valence, hydrogen count and formal charge.
+
+    ``degree`` is the sum of bond orders the atom makes to other heavy atoms.
+    ``charge`` is +1 for the N of a charge-separated nitro group / N-oxide
+    (valence 4) and -1 for its O (valence 1); 0 otherwise.
+    """
+
+    element: str
+    valence: int
+    hydrogens: int
+    charge: int = 0
+
+    @property
+    def degree(self) -> int:
+        return self.valence - self.hydrogens
+
+    @property
+    def hypervalent(self) -> bool:
+        return self.valence > VALENCES[self.element][0] and self.charge == 0
+
+
+def _element_options(
+    element: str, valences: tuple[int, ...], n_heavy: int
+) -> list[AtomType]:
+    """Atom types an element may take (degree >= 1 unless the atom is alone)."""
+    lowest = VALENCES[element][0]
+    out = []
+    for v in valences:
+        if v == lowest:
+            hs = range(v + 1)
+        else:  # a hypervalent atom carries no hydrogen (documented rule)
+            hs = range(1)
+        for h in hs:
+            d = v - h
+            if n_heavy == 1 and d != 0:
+                continue
+            if n_heavy > 1 and (d < 1 or d > 3 * (n_heavy - 1)):
+                continue
+            out.append(AtomType(element, v, h))
+    return out
+
+
+def type_distributions(
+    formula: Formula,
+    valences: Mapping[str, tuple[int, ...]] | None = None,
+    *,
+    charged_nitrogen: bool = False,
+    accept: Callable[[tuple[AtomType, ...]], bool] | None = None,
+) -> Iterator[tuple[AtomType, ...]]:
+    """Yield every multiset of atom types that realises ``formula``.
+
+    Parameters
+    ----------
+    formula : Formula
+    valences : mapping element -> allowed valences, optional
+        Defaults to :data:`STANDARD_VALENCES`.  Elements missing from the
+        mapping take their lowest valence.
+    charged_nitrogen : bool
+        Also allow N+ (valence 4, no H) paired with O- (valence 1): the
+        charge-separated form of nitro groups and N-oxides.  Each N+ needs
+        at least one O-; the number of N+ equals the number of O-.
+    accept : callable, optional
+        Extra predicate on the sorted type tuple (e.g. DEPT constraints on
+        carbon hydrogen counts).
+
+    Yields
+    ------
+    tuple of AtomType, sorted.  Distributions are yielded in a fixed order.
+
+    Notes
+    -----
+    A distribution is kept only if its degree sum is even, at least
+    ``2 (n - 1)`` (a connected graph needs ``n - 1`` bonds), and no atom's
+    degree exceeds the sum of the others' (handshake condition for loop-free
+    multigraphs).
+    """
+    valences = dict(valences or STANDARD_VALENCES)
+    n_heavy = formula.heavy_atoms
+    h_total = formula.hydrogens
+    elements = [el for el in formula.elements if el != "H"]
+    per_element: list[list[tuple[int, tuple[AtomType, ...]]]] = []
+    for el in elements:
+        opts = _element_options(el, tuple(valences.get(el, VALENCES[el][:1])), n_heavy)
+        n_el = formula.count(el)
+        choices = []
+        for combo in combinations_with_replacement(opts, n_el):
+            choices.append((sum(t.hydrogens for t in combo), combo))
+        per_element.append(choices)
+
+    # Charge-separated N+/O- pairs: replace k neutral N and k neutral O.
+    pair_counts = [0]
+    if charged_nitrogen and n_heavy > 2:
+        pair_counts = list(range(min(formula.count("N"), formula.count("O")) + 1))
+
+    seen: set[tuple[AtomType, ...]] = set()
+    for k in pair_counts:
+        for dist in _combine(per_element, elements, h_total, k, formula, valences, n_heavy):
+            dist = tuple(sorted(dist))
+            if dist in seen:
+                continue
+            seen.add(dist)
+            if not _degree_feasible(dist):
+                continue
+            if accept is not None and not accept(dist):
+                continue
+            yield dist
+
+
+def _combine(per_element, elements, h_total, k, formula, valences, n_heavy):
+    """Combine per-element choices; with k charged pairs the N/O lists shrink."""
+    if k:
+        per_element = list(per_element)
+        for idx, el in enumerate(elements):
+            if el in ("N", "O"):
+                opts = _element_options(el, tuple(valences.get(el, VALENCES[el][:1])), n_heavy)
+                n_el = formula.count(el) - k
+                per_element[idx] = [
+                    (sum(t.hydrogens for t in c), c) for c in combinations_with_replacement(opts, n_el)
+                ]
+        extra = (AtomType("N", 4, 0, 1),) * k + (AtomType("O", 1, 0, -1),) * k
+    else:
+        extra = ()
+
+    def rec(idx: int, h_left: int, acc: tuple):
+        if idx == len(per_element):
+            if h_left == 0:
+                yield acc + extra
+            return
+        for h, combo in per_element[idx]:
+            if h <= h_left:
+                yield from rec(idx + 1, h_left - h, acc + combo)
+
+    yield from rec(0, h_total, ())
+
+
+def _degree_feasible(dist: tuple[AtomType, ...]) -> bool:
+    n = len(dist)
+    if n == 1:
+        return dist[0].degree == 0
+    degrees = [t.degree for t in dist]
+    total = sum(degrees)
+    if total % 2 or total < 2 * (n - 1):
+        return False
+    if max(degrees) > total - max(degrees):
+        return False
+    # Bond order <= 3: an atom can spend at most 3 on each other atom.
+    for d in degrees:
+        if d > 3 * (n - 1):
+            return False
+    return True
