@@ -1,5 +1,18 @@
-"""Observed spectra: 13C peak lists, solvent lines and JCAMP-DX input."""
+"""Observed spectra: 13C peak lists, solvent lines and JCAMP-DX input.
 
+Results built on these inputs are hypotheses; the picked and edited peak
+lists should be checked against the spectra by the analyst.
+"""
+
+from .jcamp import (
+    JcampSpectrum,
+    PickedPeaks,
+    PickSettings,
+    peaks_from_jcamp,
+    pick_peaks,
+    read_jcamp,
+    read_jcamp_blocks,
+)
 from .peaks import (
     Peak,
     PeakList,
@@ -8,7 +21,13 @@ from .peaks import (
     peaks_from_records,
     read_peaks,
 )
-from .solvents import SOLVENT_LINES, remove_solvent_lines, resolve_solvent, solvent_from_label
+from .solvents import (
+    SOLVENT_LINES,
+    multiplet_lines,
+    remove_solvent_lines,
+    resolve_solvent,
+    solvent_from_label,
+)
 
 __all__ = [
     "Peak",
@@ -21,4 +40,12 @@ __all__ = [
     "resolve_solvent",
     "solvent_from_label",
     "remove_solvent_lines",
+    "multiplet_lines",
+    "JcampSpectrum",
+    "PickSettings",
+    "PickedPeaks",
+    "read_jcamp",
+    "read_jcamp_blocks",
+    "pick_peaks",
+    "peaks_from_jcamp",
 ]

@@ -146,10 +146,18 @@ class PeakList:
         In the order given (duplicates merged at the first occurrence).
     warnings : tuple of str
         Human-readable notes (merged duplicates, dropped solvent lines, ...).
+    provenance : tuple of str
+        How the list was obtained when it was not typed in (e.g. the peak
+        picking settings used on a JCAMP-DX spectrum), for reports.
+    observe_mhz : float or None
+        13C observe frequency when known (from a spectrum file); lets
+        solvent removal cover the whole C-D multiplet.
     """
 
     peaks: tuple[Peak, ...]
     warnings: tuple[str, ...] = field(default=())
+    provenance: tuple[str, ...] = field(default=())
+    observe_mhz: float | None = None
 
     def __len__(self) -> int:
         return len(self.peaks)
@@ -192,7 +200,8 @@ class PeakList:
 
     def without_multiplicities(self) -> "PeakList":
         """A copy with every multiplicity unknown (lines that become identical merge)."""
-        return _merge(tuple(replace(p, hydrogens=None) for p in self.peaks), self.warnings, "line")
+        merged = _merge(tuple(replace(p, hydrogens=None) for p in self.peaks), self.warnings, "line")
+        return replace(merged, provenance=self.provenance, observe_mhz=self.observe_mhz)
 
     def without_counts(self) -> "PeakList":
         """A copy with every carbon count removed."""

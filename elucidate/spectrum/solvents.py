@@ -13,6 +13,14 @@ H. E. Gottlieb, A. Nudelman, B. M. Stoltz, J. E. Bercaw, K. I. Goldberg,
 (centre of each multiplet, ppm relative to TMS).  Values written from
 memory of that table.
 
+Multiplets: a carbon bearing n deuterons shows 2n+1 lines J(C,D) apart
+(spin 1), fluorine splits into n+1 lines (spin 1/2).  When the observe
+frequency is known (spectra read from JCAMP-DX files), the outer lines of
+these multiplets, which can lie further than the tolerance from the centre
+(the DMSO-d6 septet spans +-0.63 ppm at 100 MHz), are removed too.  The
+coupling constants are the values commonly quoted on solvent data charts,
+from memory, no specific source; they only place removal windows.
+
 Carbon tetrachloride (a non-deuterated solvent still met in older data) is
 not in that table; its single line at 96.1 ppm is a commonly quoted value,
 from memory, no specific source.
@@ -20,7 +28,9 @@ from memory, no specific source.
 
 from __future__ import annotations
 
+import itertools
 import re
+from dataclasses import replace
 
 from ..errors import InputError
 from .peaks import PeakList
@@ -31,6 +41,8 @@ __all__ = [
     "resolve_solvent",
     "solvent_from_label",
     "remove_solvent_lines",
+    "SOLVENT_MULTIPLETS",
+    "multiplet_lines",
 ]
 
 #: Canonical solvent name -> its 13C lines (ppm).
@@ -52,6 +64,51 @@ _CANONICAL: dict[str, tuple[float, ...]] = {
     # Not in Fulmer et al.: commonly quoted value, from memory.
     "ccl4": (96.1,),
 }
+
+#: Couplings splitting each line of ``_CANONICAL`` (same order):
+#: tuples of (number of nuclei, spin: 1 for D or 0.5 for F, J in Hz).
+#: Commonly quoted chart values, from memory, no specific source.
+SOLVENT_MULTIPLETS: dict[str, tuple[tuple[tuple[int, float, float], ...], ...]] = {
+    "cdcl3": (((1, 1, 32.0),),),
+    "acetone-d6": (((3, 1, 19.4),), ()),
+    "dmso-d6": (((3, 1, 21.0),),),
+    "cd3od": (((3, 1, 21.4),),),
+    "cd3cn": (((3, 1, 21.0),), ()),
+    "c6d6": (((1, 1, 24.3),),),
+    "cd2cl2": (((2, 1, 27.2),),),
+    "thf-d8": (((2, 1, 20.2),), ((2, 1, 22.2),)),
+    "toluene-d8": (((3, 1, 19.0),), ((1, 1, 24.0),), ((1, 1, 24.0),), ((1, 1, 23.0),), ()),
+    "pyridine-d5": (((1, 1, 25.0),), ((1, 1, 24.5),), ((1, 1, 27.5),)),
+    "chlorobenzene-d5": (((1, 1, 24.5),), ((1, 1, 24.5),), ((1, 1, 24.5),), ()),
+    "tfe-d3": (((2, 1, 22.0), (3, 0.5, 35.0)), ((3, 0.5, 277.0),)),
+    "d2o": (),
+    "ccl4": ((),),
+}
+
+
+def multiplet_lines(solvent: str, observe_mhz: float) -> tuple[float, ...]:
+    """Every line (ppm) of the solvent's multiplets at ``observe_mhz`` MHz.
+
+    Spin-1 nuclei (D): n nuclei give offsets -n..n times J; spin-1/2 (F):
+    offsets (k - n/2) J, k = 0..n.  Offsets of several couplings add.
+    """
+    canonical = resolve_solvent(solvent)
+    if isinstance(observe_mhz, bool) or not isinstance(observe_mhz, (int, float)) or not observe_mhz > 0:
+        raise InputError(f"observe frequency {observe_mhz!r} must be a positive number of MHz")
+    if canonical == "none":
+        return ()
+    out: set[float] = set()
+    for centre, couplings in zip(_CANONICAL[canonical], SOLVENT_MULTIPLETS[canonical]):
+        offset_sets = []
+        for n, spin, j in couplings:
+            if spin == 1:
+                offset_sets.append([k * j for k in range(-n, n + 1)])
+            else:
+                offset_sets.append([(k - n / 2) * j for k in range(n + 1)])
+        for combo in itertools.product(*offset_sets) if offset_sets else [()]:
+            out.add(round(centre + sum(combo) / observe_mhz, 4))
+    return tuple(sorted(out))
+
 
 #: Alternative spellings (lower case) -> canonical name.
 SOLVENT_ALIASES: dict[str, str] = {
@@ -179,7 +236,13 @@ def solvent_from_label(label: str | None) -> str | None:
     return found.pop() if len(found) == 1 else None
 
 
-def remove_solvent_lines(peaks: PeakList, solvent: str, tolerance: float = 0.5) -> PeakList:
+def remove_solvent_lines(
+    peaks: PeakList,
+    solvent: str,
+    tolerance: float = 0.5,
+    observe_mhz: float | None = None,
+    line_tolerance: float = 0.1,
+) -> PeakList:
     """Drop peaks lying within ``tolerance`` ppm of a line of ``solvent``.
 
     Parameters
@@ -188,8 +251,14 @@ def remove_solvent_lines(peaks: PeakList, solvent: str, tolerance: float = 0.5) 
     solvent : str
         Any accepted solvent name (see :data:`SOLVENT_LINES`).
     tolerance : float
-        Half-width of the window around each solvent line, ppm (> 0, at
-        most 5).
+        Half-width of the window around each solvent line centre, ppm
+        (> 0, at most 5).
+    observe_mhz : float, optional
+        13C observe frequency; defaults to ``peaks.observe_mhz``.  When
+        known, peaks within ``line_tolerance`` of any line of the C-D (C-F)
+        multiplets are dropped as well.
+    line_tolerance : float
+        Window around each multiplet line, ppm.
 
     Returns
     -------
@@ -204,14 +273,19 @@ def remove_solvent_lines(peaks: PeakList, solvent: str, tolerance: float = 0.5) 
     if not isinstance(peaks, PeakList):
         raise InputError(f"peaks must be a PeakList, got {type(peaks).__name__}")
     canonical = resolve_solvent(solvent)
-    if isinstance(tolerance, bool) or not isinstance(tolerance, (int, float)) or not 0 < tolerance <= 5:
-        raise InputError(f"solvent tolerance {tolerance!r} must be a number of ppm in (0, 5]")
+    for name, value in (("solvent tolerance", tolerance), ("solvent line tolerance", line_tolerance)):
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value <= 5:
+            raise InputError(f"{name} {value!r} must be a number of ppm in (0, 5]")
+    mhz = peaks.observe_mhz if observe_mhz is None else observe_mhz
     lines = SOLVENT_LINES[canonical]
+    satellites = multiplet_lines(canonical, mhz) if mhz is not None else ()
     keep, dropped = [], []
     for p in peaks.peaks:
         near = [s for s in lines if abs(p.shift - s) <= tolerance]
+        near += [s for s in satellites if abs(p.shift - s) <= line_tolerance]
         if near:
-            dropped.append((p, min(near, key=lambda s: abs(p.shift - s))))
+            centre = min(lines, key=lambda s: abs(p.shift - s))
+            dropped.append((p, centre))
         else:
             keep.append(p)
     if not dropped:
@@ -223,4 +297,4 @@ def remove_solvent_lines(peaks: PeakList, solvent: str, tolerance: float = 0.5) 
         )
     listed = ", ".join(f"{p.shift:g} ppm ({s:g})" for p, s in dropped)
     note = f"removed {len(dropped)} line(s) near {canonical} solvent signals: {listed}"
-    return PeakList(tuple(keep), peaks.warnings + (note,))
+    return replace(peaks, peaks=tuple(keep), warnings=peaks.warnings + (note,))
