@@ -272,6 +272,17 @@ def test_min_separation_and_threshold_settings():
     assert len(pick_peaks(spec, PickSettings(min_relative_height=0.1)).shifts) == 2  # 3/50 < 0.1
 
 
+def test_spectrum_object_validation():
+    spec = JcampSpectrum("t", "", None, None, [3.0, 2.0, 1.0], [0, 1, 0])
+    assert spec.npoints == 3 and not spec.x.flags.writeable
+    with pytest.raises(InputError, match="equal length"):
+        JcampSpectrum("t", "", None, None, [1.0, 2.0], [1.0])
+    with pytest.raises(InputError, match="finite"):
+        JcampSpectrum("t", "", None, None, [1.0, float("nan")], [1.0, 2.0])
+    with pytest.raises(InputError, match="too few"):
+        pick_peaks(spec)
+
+
 def test_noiseless_spectrum():
     x, y = lorentzian_spectrum([(150.0, 10), (20.0, 10)], npoints=8192, width_hz=4.0)
     spec = JcampSpectrum("t", "", None, 100.6, x, y)

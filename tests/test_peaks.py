@@ -114,6 +114,13 @@ def test_semicolon_csv_header():
     assert triples(pl) == [(12.5, "CH3", None)]
 
 
+def test_decimal_comma_in_semicolon_and_tab_tables():
+    assert parse_peaks("shift;mult\n128,4;CH\n").shifts == (128.4,)
+    assert parse_peaks("shift\tmult\n77,16\t?\n").shifts == (77.16,)
+    with pytest.raises(InputError, match="decimal point"):
+        parse_peaks("shift,mult\n\"128,4\",CH\n")
+
+
 def test_negative_and_limit_shifts_accepted():
     pl = parse_peaks("-20, 250, -3.6 CH3")
     assert pl.shifts == (-20.0, 250.0, -3.6)
@@ -341,6 +348,21 @@ def test_read_not_utf8(tmp_path):
     f.write_bytes(b"12.5 CH\xff\xfe\n")
     with pytest.raises(InputError, match="not UTF-8"):
         read_peaks(str(f))
+
+
+def test_read_unreadable_file(tmp_path):
+    import os
+
+    f = tmp_path / "locked.txt"
+    f.write_text("12.5 CH\n", encoding="utf-8")
+    f.chmod(0)
+    try:
+        if os.access(f, os.R_OK):
+            pytest.skip("running with rights that ignore file permissions (root)")
+        with pytest.raises(InputError, match="cannot read peak file"):
+            read_peaks(str(f))
+    finally:
+        f.chmod(0o600)
 
 
 def test_read_directory_and_empty_file(tmp_path):

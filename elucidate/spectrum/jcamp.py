@@ -49,6 +49,7 @@ results are hypotheses to check against the spectra.
 
 from __future__ import annotations
 
+import bisect
 import math
 import os
 import re
@@ -297,6 +298,18 @@ class JcampSpectrum:
     is_peak_table: bool = False
     source: str = ""
     warnings: tuple[str, ...] = ()
+
+    def __post_init__(self) -> None:
+        x = np.asarray(self.x, dtype=float)
+        y = np.asarray(self.y, dtype=float)
+        if x.ndim != 1 or x.shape != y.shape:
+            raise InputError(f"spectrum {self.title!r}: x and y must be 1-D and of equal length")
+        if not (np.all(np.isfinite(x)) and np.all(np.isfinite(y))):
+            raise InputError(f"spectrum {self.title!r}: x and y must be finite numbers")
+        x.flags.writeable = False
+        y.flags.writeable = False
+        object.__setattr__(self, "x", x)
+        object.__setattr__(self, "y", y)
 
     @property
     def npoints(self) -> int:
@@ -592,18 +605,39 @@ def _baseline(y: np.ndarray, segments: int) -> np.ndarray:
     return np.interp(np.arange(n), centers, medians)
 
 
+def _nearest_higher(s: np.ndarray, i: int, step: int) -> int | None:
+    """Index of the nearest point beyond ``i`` (direction ``step``) higher than s[i]."""
+    h, n, w = s[i], s.size, 32
+    while True:
+        if step < 0:
+            lo = max(0, i - w)
+            hit = np.nonzero(s[lo:i] > h)[0]
+            if hit.size:
+                return lo + int(hit[-1])
+            if lo == 0:
+                return None
+        else:
+            hi = min(n, i + 1 + w)
+            hit = np.nonzero(s[i + 1 : hi] > h)[0]
+            if hit.size:
+                return i + 1 + int(hit[0])
+            if hi == n:
+                return None
+        w *= 4
+
+
 def _prominence(s: np.ndarray, i: int) -> float:
     """Topographic prominence of the local maximum ``s[i]``.
 
     The height of ``s[i]`` above the higher of the two lowest points met
-    when walking left and right until a higher point (or the end).
+    when walking left and right until a higher point (or the end).  The
+    search window grows geometrically, so noise ripples cost little.
     """
-    h = s[i]
-    left = np.nonzero(s[:i] > h)[0]
-    lmin = s[(left[-1] if left.size else 0) : i + 1].min()
-    right = np.nonzero(s[i + 1 :] > h)[0]
-    rmin = s[i : (i + 1 + right[0] + 1) if right.size else s.size].min()
-    return float(h - max(lmin, rmin))
+    left = _nearest_higher(s, i, -1)
+    right = _nearest_higher(s, i, +1)
+    lmin = s[(left if left is not None else 0) : i + 1].min()
+    rmin = s[i : (right + 1 if right is not None else s.size)].min()
+    return float(s[i] - max(lmin, rmin))
 
 
 def pick_peaks(spectrum: JcampSpectrum, settings: PickSettings | None = None, *, both_signs: bool = False) -> PickedPeaks:
@@ -662,15 +696,22 @@ def pick_peaks(spectrum: JcampSpectrum, settings: PickSettings | None = None, *,
             denom = a - 2 * b + c
             p = 0.5 * (a - c) / denom if denom < 0 else 0.0
             p = max(-0.5, min(0.5, p))
-            pos = float(np.interp(i + p, np.arange(x.size), x))
+            j = int(i) if p >= 0 else int(i) - 1
+            frac = p if p >= 0 else 1.0 + p
+            pos = float(x[j] + frac * (x[j + 1] - x[j]))
             height = b - 0.25 * (a - c) * p
             if lo <= pos <= hi:
                 cands.append((pos, sgn * float(height)))
     cands.sort(key=lambda t: (-abs(t[1]), -t[0]))
     chosen: list[tuple[float, float]] = []
+    taken: list[float] = []  # sorted positions already chosen
+    sep = settings.min_separation_ppm
     for pos, h in cands:
-        if all(abs(pos - q) >= settings.min_separation_ppm for q, _ in chosen):
-            chosen.append((pos, h))
+        k = bisect.bisect_left(taken, pos)
+        if (k < len(taken) and taken[k] - pos < sep) or (k > 0 and pos - taken[k - 1] < sep):
+            continue
+        taken.insert(k, pos)
+        chosen.append((pos, h))
     chosen.sort(key=lambda t: -t[0])
     return PickedPeaks(
         tuple(round(p, 4) for p, _ in chosen),

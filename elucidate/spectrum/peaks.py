@@ -21,7 +21,8 @@ comments and blank lines ignored::
 CSV or TSV with a header line naming the columns (case-insensitive):
 ``shift`` (also ``ppm``, ``delta``), ``mult``/``multiplicity`` (also
 ``dept``) and ``count`` (also ``n``, ``carbons``); other columns are ignored
-with a warning.
+with a warning.  In semicolon- or tab-separated tables a decimal comma
+(``128,4``) is read as a decimal point.
 
 Multiplicity tokens (case-insensitive): ``C``, ``CH``, ``CH2``, ``CH3``; the
 off-resonance letters ``s``, ``d``, ``t``, ``q``; ``CH0`` and ``Cq`` for a
@@ -440,7 +441,10 @@ def _parse_table(lines: list[tuple[int, str]]) -> PeakList:
             return fields[i] if i is not None and i < len(fields) else ""
         if get(shift_i) == "":
             raise InputError(f"{where}: the shift field is empty; every row needs a shift in ppm")
-        shift = _read_shift(get(shift_i), where)
+        raw_shift = get(shift_i)
+        if delimiter in (";", "\t", None) and re.fullmatch(r"[+-]?\d+,\d+", raw_shift):
+            raw_shift = raw_shift.replace(",", ".")  # decimal comma (spreadsheet export)
+        shift = _read_shift(raw_shift, where)
         peaks.append(Peak(shift, _read_mult(get(mult_i), where), _read_count(get(count_i), where)))
     if not peaks:
         raise InputError("peak table has a header but no rows; add one row per peak below the header")
