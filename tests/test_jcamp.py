@@ -387,3 +387,32 @@ def test_dmso_septet_removed_with_observe_frequency():
     assert clean.shifts == pytest.approx((55.0, 21.0), abs=0.02)
     # Without the frequency only the centre window applies.
     assert remove_solvent_lines(pl, "dmso-d6", observe_mhz=None).n_lines < 9
+
+
+def test_read_peaks_with_dept_and_demo_set(tmp_path):
+    """The demo writer's files go through read_peaks with both DEPT spectra."""
+    from elucidate.spectrum.synthetic import write_demo_spectra
+
+    carbons = [(166.8, 0), (133.0, 1), (130.5, 0), (129.6, 1), (129.6, 1), (128.4, 1), (128.4, 1), (61.0, 2), (14.3, 3)]
+    paths = write_demo_spectra(carbons, tmp_path, stem="qc-demo", solvent="cdcl3", npoints=32768)
+    pl = read_peaks(str(paths["c13"]), dept135=str(paths["dept135"]), dept90=str(paths["dept90"]))
+    pl = remove_solvent_lines(pl, "cdcl3")
+    assert [(p.shift, p.multiplicity) for p in pl.peaks] == [
+        (166.8, "C"), (133.0, "CH"), (130.5, "C"), (129.6, "CH"), (128.4, "CH"), (61.0, "CH2"), (14.3, "CH3")
+    ]
+    text = paths["c13"].read_text()
+    assert "synthetic" in text and "##XYDATA=(X++(Y..Y))" in text
+
+
+def test_dept_needs_a_jcamp_13c_source(tmp_path):
+    with pytest.raises(InputError, match="not a JCAMP-DX 13C spectrum"):
+        read_peaks("128.4, 77.0", dept135=str(tmp_path / "d.jdx"))
+
+
+def test_solvent_multiplet_patterns():
+    from elucidate.spectrum.synthetic import solvent_multiplet
+
+    # Spin-1 multiplet intensities 1:1:1 and 1:3:6:7:6:3:1 (common practice, no source).
+    assert [round(h * 1, 3) for _, h in solvent_multiplet("cdcl3", 100.0)] == [1.0, 1.0, 1.0]
+    assert [round(h * 7) for _, h in solvent_multiplet("dmso-d6", 100.0)] == [1, 3, 6, 7, 6, 3, 1]
+    assert solvent_multiplet("d2o", 100.0) == []

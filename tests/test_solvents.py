@@ -146,3 +146,31 @@ def test_bad_arguments():
         remove_solvent_lines(parse_peaks("10"), "hexane-d14x")
     with pytest.raises(InputError, match="PeakList"):
         remove_solvent_lines([10.0], "cdcl3")
+
+
+def test_multiplet_table_matches_line_table():
+    from elucidate.spectrum.solvents import _CANONICAL, SOLVENT_MULTIPLETS
+
+    assert set(SOLVENT_MULTIPLETS) == set(_CANONICAL)
+    for name, lines in _CANONICAL.items():
+        assert len(SOLVENT_MULTIPLETS[name]) == len(lines), name
+
+
+def test_multiplet_lines():
+    from elucidate.spectrum.solvents import multiplet_lines
+
+    # CDCl3 triplet, J(C,D) about 32 Hz (chart value, from memory): +-0.32 ppm at 100 MHz.
+    assert multiplet_lines("CDCl3", 100.0) == pytest.approx((76.84, 77.16, 77.48), abs=1e-3)
+    # DMSO-d6 septet: 7 lines, outermost 3 J = 63 Hz from the centre.
+    lines = multiplet_lines("dmso-d6", 100.0)
+    assert len(lines) == 7 and lines[0] == pytest.approx(39.52 - 0.63, abs=1e-3)
+    assert multiplet_lines("d2o", 100.0) == ()
+    with pytest.raises(InputError, match="observe frequency"):
+        multiplet_lines("cdcl3", 0)
+
+
+def test_multiplet_removal_only_with_frequency():
+    pl = parse_peaks("40.15 ?, 55.0 CH3")
+    assert remove_solvent_lines(pl, "dmso-d6") is pl  # 0.63 ppm from the centre
+    out = remove_solvent_lines(pl, "dmso-d6", observe_mhz=100.0)
+    assert out.shifts == (55.0,)

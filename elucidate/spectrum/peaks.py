@@ -511,14 +511,21 @@ def _looks_like_path(source: str) -> bool:
     return s.lower().endswith(_PATH_SUFFIXES) or "/" in s or "\\" in s
 
 
-def read_peaks(source: str) -> PeakList:
+def read_peaks(source: str, *, dept135=None, dept90=None, pick_settings=None) -> PeakList:
     """Read a peak list from a file path or from inline text.
 
     Parameters
     ----------
     source : str
         Path to an existing file (UTF-8 text; ``.jdx``/``.dx``/``.jcamp``
-        files are read as JCAMP-DX), or inline peak text.
+        files, or files starting with ``##``, are read as JCAMP-DX), or
+        inline peak text.
+    dept135, dept90 : str, optional
+        Paths of DEPT-135 / DEPT-90 JCAMP-DX spectra of the same sample;
+        only with a JCAMP-DX 13C ``source`` (multiplicities are then taken
+        from them, see :func:`elucidate.spectrum.jcamp.peaks_from_jcamp`).
+    pick_settings : PickSettings, optional
+        Peak-picking settings for JCAMP-DX spectra.
 
     Returns
     -------
@@ -535,13 +542,11 @@ def read_peaks(source: str) -> PeakList:
             "peak list is empty; give a peak file or inline peaks such as \"128.4 CH, 77.2 C\""
         )
     path = source.strip()
-    if "\n" not in path and os.path.exists(path):
-        if os.path.isdir(path):
-            raise InputError(f"peak file {path} is a directory; give the path of a peak file")
-        if path.lower().endswith(_JCAMP_SUFFIXES):
-            from .jcamp import peaks_from_jcamp
-
-            return peaks_from_jcamp(path)
+    exists = "\n" not in path and os.path.exists(path)
+    if exists and os.path.isdir(path):
+        raise InputError(f"peak file {path} is a directory; give the path of a peak file")
+    text = None
+    if exists and not path.lower().endswith(_JCAMP_SUFFIXES):
         try:
             with open(path, "rb") as fh:
                 data = fh.read()
@@ -550,13 +555,17 @@ def read_peaks(source: str) -> PeakList:
         try:
             text = data.decode("utf-8-sig")
         except UnicodeDecodeError:
-            raise InputError(
-                f"peak file {path} is not UTF-8 text; save it as plain text (UTF-8)"
-            ) from None
-        if data[:6].upper().startswith(b"##") or "##TITLE" in text[:200].upper():
-            from .jcamp import peaks_from_jcamp
+            raise InputError(f"peak file {path} is not UTF-8 text; save it as plain text (UTF-8)") from None
+    if exists and (text is None or text.lstrip().startswith("##")):
+        from .jcamp import peaks_from_jcamp
 
-            return peaks_from_jcamp(path)
+        return peaks_from_jcamp(path, dept135, dept90, pick_settings)
+    if dept135 is not None or dept90 is not None:
+        raise InputError(
+            "DEPT spectra were given but the peak source is not a JCAMP-DX 13C spectrum; give the "
+            "13C spectrum file (.jdx) as the peaks, or type the multiplicities into the peak list"
+        )
+    if text is not None:
         try:
             return parse_peaks(text)
         except InputError as exc:

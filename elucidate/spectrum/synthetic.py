@@ -14,12 +14,14 @@ CH3 ~ (3/4)(sin(theta) + sin(3 theta)); quaternary carbons give nothing.
 from __future__ import annotations
 
 import math
+import os
+from pathlib import Path
 
 import numpy as np
 
 from ..errors import InputError
 
-__all__ = ["lorentzian_spectrum", "dept_heights"]
+__all__ = ["lorentzian_spectrum", "dept_heights", "solvent_multiplet", "write_demo_spectra"]
 
 
 def lorentzian_spectrum(
@@ -80,3 +82,103 @@ def dept_heights(hydrogens: int | None, theta_deg: float) -> float:
         2: math.sin(2 * t),
         3: 0.75 * (math.sin(t) + math.sin(3 * t)),
     }[hydrogens]
+
+
+def solvent_multiplet(solvent: str, observe_mhz: float) -> list[tuple[float, float]]:
+    """Lines (ppm, relative height) of a solvent's 13C multiplets.
+
+    Spin-1 splitting by n deuterons gives the coefficients of (1 + x + x^2)^n
+    (1:1:1, 1:2:3:2:1, 1:3:6:7:6:3:1); spin-1/2 (F) gives binomial ones.
+    Centres and couplings from :mod:`elucidate.spectrum.solvents`.
+    """
+    from .solvents import _CANONICAL, SOLVENT_MULTIPLETS, resolve_solvent
+
+    name = resolve_solvent(solvent)
+    if name == "none":
+        return []
+    out: list[tuple[float, float]] = []
+    for centre, couplings in zip(_CANONICAL[name], SOLVENT_MULTIPLETS[name]):
+        pattern = {0.0: 1.0}
+        for n, spin, j in couplings:
+            unit = [1.0, 1.0, 1.0] if spin == 1 else [1.0, 1.0]
+            coeffs = np.array([1.0])
+            for _ in range(n):
+                coeffs = np.convolve(coeffs, unit)
+            step = j
+            start = -(len(coeffs) - 1) / 2 * step
+            new: dict[float, float] = {}
+            for off, h in pattern.items():
+                for k, c in enumerate(coeffs):
+                    key = round(off + start + k * step, 6)
+                    new[key] = new.get(key, 0.0) + h * c
+            pattern = new
+        top = max(pattern.values())
+        out.extend((centre + off / observe_mhz, h / top) for off, h in sorted(pattern.items()))
+    return out
+
+
+def write_demo_spectra(
+    carbons,
+    directory,
+    *,
+    stem: str = "sample",
+    solvent: str = "cdcl3",
+    observe_mhz: float = 100.6,
+    form: str = "DIFDUP",
+    noise: float = 0.4,
+    seed: int = 0,
+    npoints: int = 65536,
+) -> dict[str, Path]:
+    """Write a synthetic 13C, DEPT-135 and DEPT-90 set as JCAMP-DX files.
+
+    For demonstration scenarios and tests: the spectra are computed, not
+    measured, and say so in their ``##ORIGIN`` record and comments.
+
+    Parameters
+    ----------
+    carbons : iterable of (shift_ppm, hydrogens)
+        One entry per carbon atom (equivalent carbons repeated).
+    directory : path
+        Existing directory to write ``<stem>_13c.jdx``, ``<stem>_dept135.jdx``
+        and ``<stem>_dept90.jdx`` into.
+    solvent : str
+        Its C-D multiplet goes into the 13C spectrum ("none" for none).
+
+    Returns
+    -------
+    dict
+        ``{"c13": path, "dept135": path, "dept90": path}``.
+    """
+    from .jcamp_write import format_jcamp_spectrum
+
+    items = [(float(sh), h) for sh, h in carbons]
+    if not items:
+        raise InputError("write_demo_spectra needs at least one carbon")
+    directory = Path(directory)
+    if not directory.is_dir():
+        raise InputError(f"directory {os.fspath(directory)} does not exist")
+    # Quaternary carbons relax slowly and lack NOE: drawn at 40 % height.
+    c13 = [(sh, 40.0 if h == 0 else 100.0) for sh, h in items]
+    c13 += [(sh, 80.0 * rel) for sh, rel in solvent_multiplet(solvent, observe_mhz)]
+    sets = {
+        "c13": (c13, "13C{1H}"),
+        "dept135": ([(sh, 100.0 * dept_heights(h, 135)) for sh, h in items if h], "DEPT-135"),
+        "dept90": ([(sh, 100.0 * dept_heights(h, 90)) for sh, h in items if h], "DEPT-90"),
+    }
+    paths = {}
+    for k, (key, (lines, label)) in enumerate(sets.items()):
+        x, y = lorentzian_spectrum(
+            lines, npoints=npoints, observe_mhz=observe_mhz, width_hz=1.5, noise=noise, seed=seed + k
+        )
+        text = format_jcamp_spectrum(
+            x,
+            y,
+            title=f"{stem} {label}",
+            form=form,
+            observe_mhz=observe_mhz,
+            comments=(f"synthetic {label} spectrum computed by elucidate for a demonstration; not measured",),
+        )
+        path = directory / f"{stem}_{key}.jdx"
+        path.write_text(text, encoding="ascii")
+        paths[key] = path
+    return paths
