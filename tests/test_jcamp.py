@@ -174,6 +174,35 @@ def test_peak_table_layouts():
     assert list(parse_jcamp(text)[0].x) == [10.5, 20.5]
 
 
+def test_ntuples_real_page(tmp_path):
+    """NTUPLES layout (McDonald & Wilks 1988 / Davies & Lampen 1993, from memory): real page read."""
+    x, y = _spectrum(npoints=2048)
+    mhz = 100.6
+    xf = x * mhz
+    yfac = float(np.max(np.abs(y))) / 1e6
+    real = np.rint(y / yfac).astype(int)
+    imag = np.rint(np.roll(y, 7) / yfac).astype(int)
+    head = [
+        "##TITLE=ntuples test", "##JCAMP-DX=5.00", "##DATA TYPE=NMR SPECTRUM", "##.OBSERVE FREQUENCY=100.6",
+        "##.OBSERVE NUCLEUS=^13C", "##NTUPLES=NMR SPECTRUM",
+        "##VAR_NAME=FREQUENCY, SPECTRUM/REAL, SPECTRUM/IMAG, PAGE NUMBER",
+        "##SYMBOL=X, R, I, N", "##VAR_TYPE=INDEPENDENT, DEPENDENT, DEPENDENT, PAGE",
+        "##VAR_FORM=AFFN, ASDF, ASDF, AFFN", f"##VAR_DIM={x.size}, {x.size}, {x.size}, 2",
+        "##UNITS=HZ, ARBITRARY UNITS, ARBITRARY UNITS,", f"##FIRST={xf[0]:.6f}, 0, 0, 1",
+        f"##LAST={xf[-1]:.6f}, 0, 0, 2", f"##FACTOR=1, {yfac:.10g}, {yfac:.10g}, 1",
+        "##PAGE=N=1", "##DATA TABLE=(X++(R..R)), XYDATA $$ real",
+    ]
+    body = head + encode_xydata(list(xf), list(real), "DIFDUP")
+    body += ["##PAGE=N=2", "##DATA TABLE=(X++(I..I)), XYDATA"] + encode_xydata(list(xf), list(imag), "DIFDUP")
+    body += ["##END NTUPLES=NMR SPECTRUM", "##END="]
+    f = tmp_path / "nt.jdx"
+    f.write_text("\n".join(body) + "\n")
+    spec = read_jcamp(f)
+    assert spec.x == pytest.approx(x, abs=1e-5)
+    assert np.max(np.abs(spec.y - y)) <= yfac
+    assert pick_peaks(spec).shifts == pytest.approx([200.0, 120.5, 60.0, 10.0], abs=0.05)
+
+
 def test_compound_file_blocks(tmp_path):
     x, y = _spectrum(npoints=512)
     text = (
@@ -206,7 +235,7 @@ BAD_FILES = [
     ("##TITLE=x\n##FIRSTX=1\n##LASTX=0\n##NPOINTS=2\n##XYDATA=(XY..XY)\n1 1 2\n##END=\n", "XYDATA=(XY..XY) is not supported"),
     ("##TITLE=x\n##PEAK TABLE=(XY..XY)\n1,1 2\n##END=\n", "not a multiple of 2"),
     ("##TITLE=x\n##PEAK TABLE=(XY..XY)\n1,a\n##END=\n", "'a', which is not a number"),
-    ("##TITLE=x\n##NTUPLES=NMR SPECTRUM\n##END NTUPLES=\n##END=\n", "NTUPLES data"),
+    ("##TITLE=x\n##NTUPLES=NMR SPECTRUM\n##END NTUPLES=\n##END=\n", "NTUPLES block without a real page"),
 ]
 
 

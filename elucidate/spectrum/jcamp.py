@@ -14,6 +14,9 @@ What is read
   a letter), DIF (differences to the previous ordinate, with the Y-value
   check at the start of the next line) and DUP (repeat counts).
 * ``##XYPOINTS=(XY..XY)``: an unevenly sampled spectrum as x,y pairs.
+* ``##NTUPLES`` blocks: the real page ``##DATA TABLE=(X++(R..R)), XYDATA``
+  (axis from the ``##FIRST``/``##LAST``/``##FACTOR``/``##VAR_DIM``/``##UNITS``
+  columns of the X and R variables).
 * ``##FIRSTX``, ``##LASTX``, ``##NPOINTS``, ``##XFACTOR``, ``##YFACTOR``,
   ``##XUNITS`` (PPM or HZ; Hz are converted with ``##.OBSERVE FREQUENCY``
   in MHz) and ``##.OBSERVE NUCLEUS`` (must be 13C when present).
@@ -316,8 +319,10 @@ class JcampSpectrum:
         return int(self.x.size)
 
 
-def _to_ppm(x: np.ndarray, block: _Block, name: str, mhz: float | None) -> np.ndarray:
-    units = (block.get("XUNITS") or "PPM").strip().upper()
+def _to_ppm(x: np.ndarray, block: _Block, name: str, mhz: float | None, units: str | None = None) -> np.ndarray:
+    if units is None:
+        units = block.get("XUNITS") or "PPM"
+    units = units.strip().upper()
     if units in ("PPM", "PPM.", "DELTA"):
         return x
     if units in ("HZ", "HERTZ"):
@@ -355,6 +360,8 @@ def _spectrum_from_block(block: _Block, name: str) -> JcampSpectrum | None:
     data_type = (block.get("DATATYPE") or "").strip()
     nucleus = block.get(".OBSERVENUCLEUS")
     mhz = _num(block, ".OBSERVEFREQUENCY", name)
+    if mhz is None:
+        mhz = _num(block, "$SF", name)  # a common vendor-specific record
     if nucleus is not None:
         nuc = re.sub(r"[\^\s]", "", nucleus).upper()
         if nuc and nuc not in ("13C", "C13"):
@@ -365,10 +372,7 @@ def _spectrum_from_block(block: _Block, name: str) -> JcampSpectrum | None:
     yfactor = _num(block, "YFACTOR", name, 1.0)
     warnings: list[str] = []
     if block.get("NTUPLES") is not None and block.data("XYDATA") is None and block.data("PEAKTABLE") is None:
-        raise InputError(
-            f"{name}: NTUPLES data (real/imaginary pages) are not supported; export the processed "
-            "spectrum as ##XYDATA=(X++(Y..Y)) or a ##PEAK TABLE"
-        )
+        return _ntuples_real_page(block, name, title, data_type, nucleus, mhz)
     peak = block.data("PEAKTABLE")
     if peak is not None:
         form, lines, _no = peak
@@ -399,6 +403,14 @@ def _spectrum_from_block(block: _Block, name: str) -> JcampSpectrum | None:
     npts = _num(block, "NPOINTS", name)
     if first is None or last is None or npts is None:
         raise InputError(f"{name}: ##XYDATA needs ##FIRSTX, ##LASTX and ##NPOINTS; add the missing records")
+    x, y, warnings = _sampled(lines, no, first, last, npts, xfactor, yfactor, name)
+    x = _to_ppm(x, block, name, mhz)
+    return JcampSpectrum(title, data_type, nucleus, mhz, x, y, False, name, tuple(warnings))
+
+
+def _sampled(lines, no, first, last, npts, xfactor, yfactor, name):
+    """Decode evenly sampled ``(X++(Y..Y))`` lines into x (file units) and y."""
+    warnings: list[str] = []
     n = int(npts)
     if n != npts or n < 2:
         raise InputError(f"{name}: ##NPOINTS={npts:g} must be an integer of at least 2")
@@ -423,8 +435,52 @@ def _spectrum_from_block(block: _Block, name: str) -> JcampSpectrum | None:
             f"{name}: line abscissae deviate from ##FIRSTX/##LASTX by up to {worst:g} "
             "(X check); the axis was taken from ##FIRSTX/##LASTX"
         )
-    x = _to_ppm(np.linspace(first, last, n), block, name, mhz)
-    y = np.asarray(ys, dtype=float) * yfactor
+    return np.linspace(first, last, n), np.asarray(ys, dtype=float) * yfactor, warnings
+
+
+def _list(block: _Block, label: str) -> list[str]:
+    text = block.get(label)
+    return [] if text is None else [t.strip() for t in text.split(",")]
+
+
+def _ntuples_real_page(block: _Block, name, title, data_type, nucleus, mhz) -> JcampSpectrum:
+    """The real (R) page of an NTUPLES block, the processed spectrum.
+
+    The variables are described column-wise by ``##SYMBOL``, ``##UNITS``,
+    ``##FIRST``, ``##LAST``, ``##FACTOR`` and ``##VAR_DIM``; the page is
+    ``##DATA TABLE=(X++(R..R)), XYDATA``.
+    """
+    symbols = [s.upper() for s in _list(block, "SYMBOL")]
+    table = None
+    for lab, val, lines, no in block.records:
+        if lab == "DATATABLE" and re.sub(r"\s", "", val).upper().startswith("(X++(R..R))"):
+            table = (lines, no)
+            break
+    if table is None or "X" not in symbols or "R" not in symbols:
+        raise InputError(
+            f"{name}: NTUPLES block without a real page ##DATA TABLE=(X++(R..R)); export the processed "
+            "spectrum as ##XYDATA=(X++(Y..Y)) or a ##PEAK TABLE"
+        )
+    ix, ir = symbols.index("X"), symbols.index("R")
+
+    def pick(label, i, default=None):
+        vals = _list(block, label)
+        if i >= len(vals) or vals[i] == "":
+            if default is None:
+                raise InputError(f"{name}: NTUPLES ##{label} has no value for variable {symbols[i]}")
+            return default
+        try:
+            return float(vals[i])
+        except ValueError:
+            raise InputError(f"{name}: NTUPLES ##{label} value {vals[i]!r} is not a number") from None
+
+    first, last = pick("FIRST", ix), pick("LAST", ix)
+    npts = pick("VARDIM", ix)
+    xfactor, yfactor = pick("FACTOR", ix, 1.0), pick("FACTOR", ir, 1.0)
+    units = _list(block, "UNITS")
+    xunits = units[ix] if ix < len(units) and units[ix] else "PPM"
+    x, y, warnings = _sampled(table[0], table[1], first, last, npts, xfactor, yfactor, name)
+    x = _to_ppm(x, block, name, mhz, xunits)
     return JcampSpectrum(title, data_type, nucleus, mhz, x, y, False, name, tuple(warnings))
 
 
