@@ -1,0 +1,154 @@
+"""Benchmark the whole elucidation job on a file of cases.
+
+Case format (JSON lines), as documented with the open reference data::
+
+    {"id": "...", "formula": "C6H3BrF2", "solvent": null,
+     "peaks": [{"shift": 98.1, "mult": "C", "count": 1}, ...],
+     "answer": "Fc1cc(F)cc(Br)c1"}
+
+Modes: ``mult`` keeps multiplicities and drops counts (the usual lab
+situation), ``plain`` drops both (13C only), ``count`` keeps both (an easier
+upper bound).  A case is *found* when the answer's constitution is among the
+ranked candidates; ranks compare stereo-free canonical SMILES.
+"""
+
+from __future__ import annotations
+
+import json
+import statistics
+from pathlib import Path
+from typing import Callable
+
+from rdkit import Chem
+
+from .errors import InputError
+from .formula import parse_formula
+from .pipeline import SolveSettings, solve
+from .spectrum.peaks import peaks_from_records
+
+__all__ = ["read_cases", "run_bench", "format_bench_table", "BANDS"]
+
+BANDS = ((4, 8), (9, 12), (13, 16), (17, 22))
+
+
+def read_cases(path: str, limit: int | None = None) -> list[dict]:
+    """Read and validate a JSON-lines case file."""
+    p = Path(path)
+    if not p.is_file():
+        raise InputError(f"case file {path!r} not found; give a JSON-lines file of cases")
+    cases = []
+    with p.open(encoding="utf-8") as fh:
+        for lineno, line in enumerate(fh, 1):
+            if not line.strip():
+                continue
+            try:
+                case = json.loads(line)
+            except json.JSONDecodeError as exc:
+                raise InputError(f"{path}: line {lineno} is not valid JSON ({exc.msg})") from None
+            missing = [k for k in ("formula", "peaks", "answer") if k not in case]
+            if missing:
+                raise InputError(f"{path}: line {lineno} lacks {', '.join(missing)}; each case needs formula, peaks, answer")
+            case.setdefault("id", f"line-{lineno}")
+            cases.append(case)
+            if limit is not None and len(cases) >= limit:
+                break
+    if not cases:
+        raise InputError(f"case file {path!r} holds no cases")
+    return cases
+
+
+def _canon(smiles: str) -> str | None:
+    mol = Chem.MolFromSmiles(smiles)
+    return None if mol is None else Chem.MolToSmiles(mol, isomericSmiles=False)
+
+
+def _records_for_mode(peaks: list[dict], mode: str) -> list[dict]:
+    out = []
+    for p in peaks:
+        r = {"shift": p["shift"]}
+        if mode in ("mult", "count"):
+            r["mult"] = p.get("mult")
+        if mode == "count":
+            r["count"] = p.get("count")
+        out.append(r)
+    return out
+
+
+def run_bench(
+    path: str,
+    *,
+    mode: str = "mult",
+    limit: int | None = None,
+    time_limit: float = 60.0,
+    keep: int = 100,
+    progress: Callable[[str], None] | None = None,
+) -> list[dict]:
+    """Solve every case; one result row per case."""
+    if mode not in ("mult", "plain", "count"):
+        raise InputError(f"mode {mode!r} unknown; use mult, plain or count")
+    rows = []
+    cases = read_cases(path, limit)
+    settings = SolveSettings(time_limit=time_limit, top=keep, keep=keep)
+    for i, case in enumerate(cases, 1):
+        formula = parse_formula(case["formula"])
+        answer = _canon(case["answer"])
+        peaks = peaks_from_records(_records_for_mode(case["peaks"], mode))
+        row = {"id": case["id"], "formula": formula.hill, "heavy_atoms": formula.heavy_atoms}
+        try:
+            result = solve(formula, peaks, settings)
+        except InputError as exc:
+            row.update(error=str(exc), rank=None, complete=False, elapsed_s=None,
+                       candidates=0, top_probability=None)
+        else:
+            ranks = [c.smiles for c in result.candidates]
+            rank = ranks.index(answer) + 1 if answer in ranks else None
+            row.update(
+                rank=rank,
+                complete=result.complete,
+                elapsed_s=round(result.elapsed_s, 3),
+                candidates=result.candidates_generated,
+                top_probability=round(result.candidates[0].probability, 4) if result.candidates else None,
+            )
+        rows.append(row)
+        if progress:
+            progress(f"[{i}/{len(cases)}] {row['id']} {row['formula']}: rank {row['rank']} "
+                     f"({row['elapsed_s']} s)")
+    return rows
+
+
+def _band(n: int) -> str:
+    for lo, hi in BANDS:
+        if lo <= n <= hi:
+            return f"{lo}-{hi}"
+    return f"{n}"
+
+
+def format_bench_table(rows: list[dict], *, mode: str) -> str:
+    """Top-k rates, completeness and times per heavy-atom band."""
+    groups: dict[str, list[dict]] = {}
+    for r in rows:
+        groups.setdefault(_band(r["heavy_atoms"]), []).append(r)
+    order = sorted(groups, key=lambda b: int(b.split("-")[0]))
+    lines = [f"mode {mode}: {len(rows)} cases",
+             f"{'band':>6} {'n':>4} {'top1':>6} {'top3':>6} {'top5':>6} {'top10':>6} {'found':>6} "
+             f"{'compl':>6} {'t_med':>7} {'t_p90':>7}"]
+
+    def stats(rs):
+        n = len(rs)
+        def rate(k):
+            return 100.0 * sum(1 for r in rs if r["rank"] is not None and r["rank"] <= k) / n
+        found = 100.0 * sum(1 for r in rs if r["rank"] is not None) / n
+        comp = 100.0 * sum(1 for r in rs if r["complete"]) / n
+        times = sorted(r["elapsed_s"] for r in rs if r["elapsed_s"] is not None) or [float("nan")]
+        med = statistics.median(times)
+        p90 = times[min(len(times) - 1, int(round(0.9 * (len(times) - 1))))]
+        return (f"{n:>4} {rate(1):>5.1f}% {rate(3):>5.1f}% {rate(5):>5.1f}% {rate(10):>5.1f}% "
+                f"{found:>5.1f}% {comp:>5.1f}% {med:>6.1f}s {p90:>6.1f}s")
+
+    for b in order:
+        lines.append(f"{b:>6} " + stats(groups[b]))
+    lines.append(f"{'all':>6} " + stats(rows))
+    errors = [r for r in rows if r.get("error")]
+    if errors:
+        lines.append(f"{len(errors)} case(s) rejected as input errors, e.g. {errors[0]['id']}: {errors[0]['error']}")
+    return "\n".join(lines)

@@ -1,0 +1,294 @@
+"""The ``elucidate`` command line: thin option parsing on top of the pipeline.
+
+User errors print one line ``error: ...`` on stderr and exit with code 2;
+anything else is a bug and keeps its traceback.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+import click
+
+from .errors import InputError
+
+__all__ = ["main"]
+
+
+def _fail(message: str) -> None:
+    click.echo("error: " + " ".join(str(message).split()), err=True)
+    sys.exit(2)
+
+
+class _Group(click.Group):
+    """Click group that turns user errors into one line and exit code 2."""
+
+    def main(self, args=None, prog_name=None, complete_var=None, standalone_mode=True, **extra):
+        try:
+            rv = super().main(
+                args=args, prog_name=prog_name or "elucidate", complete_var=complete_var,
+                standalone_mode=False, **extra,
+            )
+        except InputError as exc:
+            _fail(str(exc))
+        except click.exceptions.NoArgsIsHelpError as exc:
+            click.echo(exc.ctx.get_help() if exc.ctx else str(exc))
+            sys.exit(0)
+        except click.ClickException as exc:
+            msg = exc.format_message()
+            if isinstance(exc, click.UsageError) and exc.ctx is not None:
+                msg += f" (see '{exc.ctx.command_path} --help')"
+            _fail(msg)
+        except click.Abort:
+            _fail("interrupted")
+        except BrokenPipeError:  # e.g. piped into head
+            sys.exit(0)
+        if isinstance(rv, int) and not isinstance(rv, bool):
+            sys.exit(rv)
+        sys.exit(0)
+
+
+@click.group(cls=_Group, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
+@click.version_option(package_name="elucidate")
+def main():
+    """Propose organic structures from a molecular formula and a 13C peak list.
+
+    Typical use: 'elucidate solve --formula C4H8O2 --peaks "171.1 C, 60.4 CH2,
+    21.0 CH3, 14.2 CH3"'.  Every command has its own --help with an example.
+
+    Results are hypotheses: confirm them with reference standards and
+    orthogonal methods.
+    """
+
+
+# ----------------------------------------------------------------- shared options
+def _structure_options(fn):
+    opts = [
+        click.option("--valence", "valence", multiple=True, metavar="EL=V,..",
+                     help="Allowed valences of an element, e.g. S=2,4,6 or P=3 (repeatable)."),
+        click.option("--charged-nitrogen/--no-charged-nitrogen", default=False, show_default=True,
+                     help="Also build charge-separated N+/O- pairs (nitro groups, N-oxides)."),
+        click.option("--require", multiple=True, metavar="SMARTS",
+                     help="Substructure every structure must contain (repeatable)."),
+        click.option("--forbid", multiple=True, metavar="SMARTS",
+                     help="Substructure no structure may contain (repeatable)."),
+        click.option("--max-rings", type=click.IntRange(min=0), default=None,
+                     help="Largest number of rings (SSSR)."),
+        click.option("--min-ring-size", type=click.IntRange(min=3), default=None,
+                     help="Smallest ring size allowed."),
+        click.option("--max-ring-size", type=click.IntRange(min=3), default=None,
+                     help="Largest ring size allowed."),
+    ]
+    for opt in reversed(opts):
+        fn = opt(fn)
+    return fn
+
+
+def _formula(text):
+    from .formula import parse_formula
+
+    return parse_formula(text)
+
+
+def _write(text: str, output: str | None) -> None:
+    if output:
+        try:
+            Path(output).write_text(text, encoding="utf-8")
+        except OSError as exc:
+            raise InputError(f"cannot write output file {output!r}: {exc.strerror}") from None
+    else:
+        click.echo(text, nl=False)
+
+
+# ----------------------------------------------------------------- isomers
+@main.command()
+@click.option("--formula", "-f", required=True, help="Molecular formula, e.g. C6H14O.")
+@click.option("--count", is_flag=True, help="Print only the number of isomers.")
+@click.option("--format", "fmt", type=click.Choice(["smiles", "json"]), default="smiles",
+              show_default=True, help="Output format of the list.")
+@click.option("--plausible", is_flag=True,
+              help="Drop implausible motifs (enols, gem-diols, ...; see docs/constraints.md).")
+@_structure_options
+@click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=None,
+              help="Stop after this many seconds (the output says it is incomplete).")
+@click.option("--output", "-o", default=None, help="Write to this file instead of stdout.")
+def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, forbid,
+            max_rings, min_ring_size, max_ring_size, time_limit, output):
+    """List every constitutional isomer of a formula (each exactly once).
+
+    Neutral molecules, no stereo.  Valences default to the lowest of each
+    element (C4 N3 O2 S2 P3 Si4 B3 Se2, halogens 1); widen with --valence
+    S=2,4,6 --valence P=3,5 (atoms above their lowest valence carry no H).
+    No plausibility filter unless --plausible.
+
+    Example: elucidate isomers --formula C4H10O --count
+    """
+    from .constraints.structural import implausible_motif_filters, ring_filters, smarts_filters
+    from .generate import enumerate_isomers, parse_valence_option
+
+    f = _formula(formula)
+    filters = implausible_motif_filters(only_default=True) if plausible else []
+    filters += smarts_filters(require, forbid)
+    filters += ring_filters(max_rings, min_ring_size, max_ring_size)
+    run = enumerate_isomers(f, valences=parse_valence_option(valence), charged_nitrogen=charged_nitrogen,
+                            filters=filters, time_limit=time_limit)
+    if count:
+        n = sum(1 for _ in run)
+        text = f"{n}\n"
+        if not run.complete:
+            click.echo(f"warning: stopped at the time limit; {n} is a lower bound", err=True)
+    elif fmt == "smiles":
+        lines = [s.smiles for s in run]
+        text = "".join(x + "\n" for x in lines)
+        if not run.complete:
+            click.echo("warning: stopped at the time limit; the list is incomplete", err=True)
+    else:
+        smiles = [s.smiles for s in run]
+        text = json.dumps({"formula": f.hill, "count": len(smiles), "complete": run.complete,
+                           "isomers": smiles}, indent=1) + "\n"
+    _write(text, output)
+
+
+# ----------------------------------------------------------------- solve
+@main.command()
+@click.option("--formula", "-f", required=True, help="Molecular formula from HRMS, e.g. C8H8O2.")
+@click.option("--peaks", "-p", required=True, metavar="FILE|TEXT",
+              help='Peak file, or inline text such as "206.9 C, 45.2 CH2, 29.9 CH3".')
+@click.option("--solvent", default=None, help="Deuterated solvent whose lines are dropped, e.g. CDCl3.")
+@click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=60.0, show_default=True,
+              help="Seconds for the search; partial results are flagged incomplete.")
+@click.option("--top", type=click.IntRange(min=1), default=10, show_default=True,
+              help="Number of candidates reported.")
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text", show_default=True,
+              help="Output format.")
+@click.option("--output", "-o", default=None, help="Write to this file instead of stdout.")
+@_structure_options
+@click.option("--allow-all", is_flag=True,
+              help="Keep implausible motifs (enols, gem-diols, small-ring triple bonds ...).")
+@click.option("--max-overlap", type=click.IntRange(min=0), default=4, show_default=True,
+              help="Carbon classes allowed beyond the line count (accidental overlap).")
+@click.option("--max-split", type=click.IntRange(min=0), default=3, show_default=True,
+              help="Lines allowed beyond the carbon classes (diastereotopic/rotamer splitting).")
+def solve(formula, peaks, solvent, time_limit, top, fmt, output, valence, charged_nitrogen, require,
+          forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split):
+    """Rank every structure consistent with a formula and a 13C peak list.
+
+    Peaks: one line per signal, 'shift [multiplicity] [count]'; multiplicity
+    C, CH, CH2, CH3 (or s, d, t, q, ? for unknown) from DEPT.  Valences:
+    S 2/4/6 and P 3/5 are on (sulfoxides, sulfones, phosphates); use
+    --valence S=2 to restrict.
+
+    Example:
+
+      elucidate solve --formula C4H8O2 --peaks "171.1 C, 60.4 CH2, 21.0 CH3, 14.2 CH3"
+
+    Results are hypotheses: confirm with reference standards and
+    orthogonal methods.
+    """
+    from .constraints.spectral import SymmetryAllowance
+    from .generate import WIDE_VALENCES, parse_valence_option
+    from .pipeline import SolveSettings, solve as run_solve
+    from .report.serialize import result_to_dict
+    from .report.text import render_text
+
+    f = _formula(formula)
+    valences = dict(WIDE_VALENCES)
+    valences.update(parse_valence_option(valence))
+    settings = SolveSettings(
+        valences=tuple(valences.items()), charged_nitrogen=charged_nitrogen, allow_all=allow_all,
+        require=tuple(require), forbid=tuple(forbid), max_rings=max_rings,
+        min_ring_size=min_ring_size, max_ring_size=max_ring_size,
+        symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
+        time_limit=time_limit, top=top,
+    )
+    result = run_solve(f, peaks, settings, progress=_progress_printer())
+    _clear_progress()
+    data = result_to_dict(result)
+    text = json.dumps(data, indent=1) + "\n" if fmt == "json" else render_text(data)
+    _write(text, output)
+
+
+def _progress_printer():
+    if not sys.stderr.isatty():
+        return None
+
+    def show(n, elapsed):
+        click.echo(f"\r  {n:,} structures ranked, {elapsed:.0f} s", err=True, nl=False)
+
+    return show
+
+
+def _clear_progress():
+    if sys.stderr.isatty():
+        click.echo("\r" + " " * 50 + "\r", err=True, nl=False)
+
+
+# ----------------------------------------------------------------- predict
+@main.command()
+@click.argument("smiles", nargs=-1)
+@click.option("--input", "input_file", default=None, help="File with one SMILES per line.")
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text", show_default=True)
+def predict(smiles, input_file, fmt):
+    """Predict the 13C shift of every carbon of one or more molecules.
+
+    Atom indices follow the SMILES as given.
+
+    Example: elucidate predict "CC(=O)OCC" --format json
+    """
+    from .predict import predict_smiles
+
+    items = list(smiles)
+    if input_file:
+        try:
+            text = Path(input_file).read_text(encoding="utf-8")
+        except OSError as exc:
+            raise InputError(f"cannot read --input file {input_file!r}: {exc.strerror}") from None
+        items += [ln.split()[0] for ln in text.splitlines() if ln.strip() and not ln.startswith("#")]
+    if not items:
+        raise InputError("give at least one SMILES argument or --input FILE")
+    results = []
+    for smi in items:
+        atoms = predict_smiles(smi)
+        results.append({
+            "smiles": smi,
+            "atoms": [{"index": a.index, "element": a.element, "hydrogens": a.hydrogens,
+                       "shift": a.shift, "sigma": a.sigma} for a in atoms],
+        })
+    if fmt == "json":
+        click.echo(json.dumps(results, indent=1))
+        return
+    for r in results:
+        click.echo(r["smiles"])
+        for a in r["atoms"]:
+            click.echo(f"  C{a['index']:<4} H{a['hydrogens']}  {a['shift']:7.2f} ppm  ± {a['sigma']:.1f}")
+
+
+# ----------------------------------------------------------------- bench
+@main.command()
+@click.argument("cases", type=click.Path(dir_okay=False))
+@click.option("--mode", type=click.Choice(["mult", "plain", "count"]), default="mult", show_default=True,
+              help="mult: multiplicities, no counts; plain: shifts only; count: both.")
+@click.option("--limit", type=click.IntRange(min=1), default=None, help="Use only the first N cases.")
+@click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=60.0, show_default=True,
+              help="Seconds per case.")
+@click.option("--output", "-o", default=None, help="Also write per-case results (JSON lines) here.")
+def bench(cases, mode, limit, time_limit, output):
+    """Measure elucidation on a case file (JSON lines with formula, peaks, answer).
+
+    Prints top-1/top-5/found rates and times per heavy-atom band.
+
+    Example: elucidate bench ../shared/data/bench_cases.jsonl --limit 50
+    """
+    from .bench import format_bench_table, run_bench
+
+    rows = run_bench(cases, mode=mode, limit=limit, time_limit=time_limit,
+                     progress=(lambda msg: click.echo(msg, err=True)) if sys.stderr.isatty() else None)
+    if output:
+        _write("".join(json.dumps(r) + "\n" for r in rows), output)
+    click.echo(format_bench_table(rows, mode=mode))
+
+
+if __name__ == "__main__":  # pragma: no cover
+    main()

@@ -1,0 +1,286 @@
+"""The elucidation pipeline: formula + peak list -> ranked, assigned candidates.
+
+Data flows one way::
+
+    formula, peaks -> constraints -> generation -> prediction -> ranking -> result
+
+:func:`solve` is the Python entry point behind ``elucidate solve``; it
+returns a :class:`SolveResult` that the report renderers serialise without
+recomputing any science.
+
+Results are hypotheses: confirm them with reference standards and orthogonal
+methods; forensic and QC decisions follow the lab's accredited procedures.
+"""
+
+from __future__ import annotations
+
+import heapq
+import math
+import time
+from dataclasses import dataclass, field
+from typing import Callable, Sequence
+
+from rdkit import Chem
+
+from .constraints.spectral import (
+    SymmetryAllowance,
+    carbon_classes,
+    carbon_hydrogen_rule,
+    symmetry_filter,
+)
+from .constraints.structural import implausible_motif_filters, ring_filters, smarts_filters
+from .errors import InputError
+from .formula import Formula, parse_formula
+from .generate import WIDE_VALENCES, enumerate_isomers
+from .generate.atomtypes import type_distributions
+from .predict import predict_mol
+from .rank.assignment import Assignment, CarbonClass, LineEntry, assign_lines
+from .spectrum.peaks import PeakList, check_against_formula, read_peaks
+from .spectrum.solvents import remove_solvent_lines
+
+__all__ = ["SolveSettings", "Candidate", "SolveResult", "solve", "rank_structure"]
+
+CAUTION = (
+    "Results are hypotheses, not identifications: confirm with reference standards and "
+    "orthogonal methods (MS/MS, 1H/2D NMR, IR); forensic and QC decisions follow the lab's "
+    "accredited procedures and local regulations."
+)
+
+
+@dataclass(frozen=True)
+class SolveSettings:
+    """Options of a solve run; the same names are used by the CLI and JSON."""
+
+    valences: tuple[tuple[str, tuple[int, ...]], ...] = tuple(WIDE_VALENCES.items())
+    charged_nitrogen: bool = False
+    allow_all: bool = False
+    require: tuple[str, ...] = ()
+    forbid: tuple[str, ...] = ()
+    max_rings: int | None = None
+    min_ring_size: int | None = None
+    max_ring_size: int | None = None
+    symmetry: SymmetryAllowance = SymmetryAllowance()
+    solvent: str | None = None
+    time_limit: float = 60.0
+    top: int = 10
+    keep: int = 100
+
+    def __post_init__(self):
+        if not (self.time_limit > 0):
+            raise InputError(f"--time-limit must be a positive number of seconds, got {self.time_limit}")
+        if self.top < 1:
+            raise InputError(f"--top must be at least 1, got {self.top}")
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """A ranked constitution with its line assignment.
+
+    ``assignment`` atom indices refer to the atoms of ``smiles`` in the order
+    they are written.
+    """
+
+    smiles: str
+    score: float
+    probability: float
+    mae_ppm: float
+    max_error_ppm: float
+    assignment: tuple[LineEntry, ...]
+    predicted: tuple[tuple[int, int, float, float], ...]  # (atom, H, shift, sigma)
+    overlaps: int
+    splits: int
+    unfilled: tuple[int, ...]
+
+
+@dataclass(frozen=True)
+class SolveResult:
+    formula: Formula
+    peaks: PeakList
+    settings: SolveSettings
+    complete: bool
+    candidates_generated: int
+    elapsed_s: float
+    warnings: tuple[str, ...]
+    candidates: tuple[Candidate, ...]
+    constraint_log: tuple[tuple[str, int, int], ...]
+
+    @property
+    def dbe(self) -> int:
+        return self.formula.dbe
+
+
+@dataclass(frozen=True)
+class _Scored:
+    score: float
+    smiles: str
+    assignment: Assignment
+    predicted: tuple
+    order: tuple[int, ...]  # generator atom index -> SMILES atom index
+
+
+def rank_structure(mol: Chem.Mol, peaks: Sequence) -> tuple[Assignment, tuple]:
+    """Predict a structure's shifts and assign the lines to its carbons."""
+    shifts = {a.index: a for a in predict_mol(mol)}
+    classes = []
+    for h, groups in carbon_classes(mol).items():
+        for atoms in groups:
+            preds = [shifts[i] for i in atoms]
+            shift = sum(p.shift for p in preds) / len(preds)
+            sigma = max(p.sigma for p in preds)
+            classes.append(CarbonClass(h, tuple(atoms), shift, sigma))
+    predicted = tuple((a.index, a.hydrogens, a.shift, a.sigma) for a in shifts.values())
+    return assign_lines(peaks, classes), predicted
+
+
+def _smiles_order(mol: Chem.Mol, smiles_written: bool) -> tuple[int, ...]:
+    """Map each atom index of ``mol`` to its position in its canonical SMILES."""
+    if not smiles_written:
+        Chem.MolToSmiles(mol, isomericSmiles=False)
+    order = list(mol.GetPropsAsDict(True, True)["_smilesAtomOutputOrder"])
+    pos = [0] * mol.GetNumAtoms()
+    for p, a in enumerate(order):
+        pos[a] = p
+    return tuple(pos)
+
+
+def prepare_peaks(formula: Formula, peaks_source, solvent: str | None) -> PeakList:
+    """Read, clean (solvent lines) and check a peak list against the formula."""
+    peaks = peaks_source if isinstance(peaks_source, PeakList) else read_peaks(peaks_source)
+    if solvent:
+        peaks = remove_solvent_lines(peaks, solvent)
+    return check_against_formula(peaks, formula)
+
+
+def solve(
+    formula: Formula | str,
+    peaks,
+    settings: SolveSettings | None = None,
+    *,
+    progress: Callable[[int, float], None] | None = None,
+) -> SolveResult:
+    """Propose structures for a formula and a 13C peak list.
+
+    Parameters
+    ----------
+    formula : Formula or str
+    peaks : PeakList, peak text or path to a peak file
+    settings : SolveSettings, optional
+    progress : callable(candidates_so_far, elapsed_s), optional
+
+    Returns
+    -------
+    SolveResult
+        Candidates best first; ``complete`` is True only when the whole
+        constrained space was searched within the time limit.
+    """
+    settings = settings or SolveSettings()
+    if isinstance(formula, str):
+        formula = parse_formula(formula)
+    peaks = prepare_peaks(formula, peaks, settings.solvent)
+    start = time.monotonic()
+    valences = dict(settings.valences)
+
+    accept = carbon_hydrogen_rule(peaks.peaks, formula.carbons)
+    filters = []
+    if not settings.allow_all:
+        filters += implausible_motif_filters(only_default=True)
+    filters += smarts_filters(settings.require, settings.forbid)
+    filters += ring_filters(settings.max_rings, settings.min_ring_size, settings.max_ring_size)
+    filters.append(symmetry_filter(peaks.peaks, settings.symmetry))
+
+    all_dists = sum(1 for _ in type_distributions(formula, valences, charged_nitrogen=settings.charged_nitrogen))
+    run = enumerate_isomers(
+        formula,
+        valences=valences,
+        charged_nitrogen=settings.charged_nitrogen,
+        filters=filters,
+        accept_types=accept,
+        time_limit=settings.time_limit,
+    )
+    heap: list[tuple[float, int, _Scored]] = []
+    counter = 0
+    last_report = start
+    for structure in run:
+        counter += 1
+        assignment, predicted = rank_structure(structure.mol, peaks.peaks)
+        if math.isinf(assignment.cost):
+            continue
+        item = _Scored(assignment.cost, structure.smiles, assignment, predicted,
+                       _smiles_order(structure.mol, True))
+        key = (-assignment.cost, _neg_key(structure.smiles))
+        if len(heap) < settings.keep:
+            heapq.heappush(heap, (key, counter, item))
+        elif key > heap[0][0]:
+            heapq.heapreplace(heap, (key, counter, item))
+        if progress is not None and time.monotonic() - last_report > 0.5:
+            last_report = time.monotonic()
+            progress(counter, last_report - start)
+
+    ranked = sorted((it for _, _, it in heap), key=lambda s: (s.score, s.smiles))
+    candidates = _finalise(ranked, settings.top)
+    warnings = list(peaks.warnings)
+    if not run.complete:
+        warnings.append(
+            f"search stopped at the time limit ({settings.time_limit:g} s): the list is not "
+            "exhaustive and probabilities are relative to the structures found"
+        )
+    if not candidates:
+        warnings.append(
+            "no structure fits these constraints; check the formula, the multiplicities, "
+            "solvent/impurity lines, or relax options (--allow-all)"
+        )
+    log = [("atom-type distributions (DEPT H counts)", all_dists, run.distributions)]
+    log += run.filter_log
+    return SolveResult(
+        formula=formula,
+        peaks=peaks,
+        settings=settings,
+        complete=run.complete,
+        candidates_generated=counter,
+        elapsed_s=time.monotonic() - start,
+        warnings=tuple(warnings),
+        candidates=tuple(candidates),
+        constraint_log=tuple(log),
+    )
+
+
+class _neg_key(str):
+    """String whose ordering is reversed (so heap ties prefer smaller SMILES)."""
+
+    def __lt__(self, other):  # pragma: no cover - trivial
+        return str.__gt__(self, other)
+
+    def __gt__(self, other):  # pragma: no cover - trivial
+        return str.__lt__(self, other)
+
+
+def _finalise(ranked: Sequence[_Scored], top: int) -> list[Candidate]:
+    if not ranked:
+        return []
+    best = ranked[0].score
+    weights = [math.exp(-(s.score - best)) for s in ranked]
+    total = sum(weights)
+    out = []
+    for s, w in zip(ranked[:top], weights[:top]):
+        pos = s.order
+        entries = tuple(
+            LineEntry(e.peak_index, e.observed, e.predicted, e.sigma,
+                      tuple(sorted(pos[a] for a in e.atoms)), e.kind)
+            for e in s.assignment.entries
+        )
+        predicted = tuple(sorted((pos[i], h, sh, sg) for i, h, sh, sg in s.predicted))
+        out.append(
+            Candidate(
+                smiles=s.smiles,
+                score=round(s.score, 4),
+                probability=w / total,
+                mae_ppm=s.assignment.mae,
+                max_error_ppm=s.assignment.max_error,
+                assignment=entries,
+                predicted=predicted,
+                overlaps=s.assignment.overlaps,
+                splits=s.assignment.splits,
+                unfilled=s.assignment.unfilled,
+            )
+        )
+    return out

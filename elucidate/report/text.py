@@ -1,0 +1,68 @@
+"""Terminal rendering of a solve result (the default ``--format text``)."""
+
+from __future__ import annotations
+
+__all__ = ["render_text"]
+
+
+def render_text(data: dict) -> str:
+    """Render the plain-data result (see :mod:`.serialize`) as text."""
+    out = []
+    status = "complete" if data["complete"] else "INCOMPLETE (stopped at the time limit)"
+    out.append(
+        f"formula {data['formula']}  DBE {data['dbe']}  lines {len(data['peaks'])}  "
+        f"structures ranked {data['candidates_generated']}  search {status}  "
+        f"{data['elapsed_s']:.1f} s"
+    )
+    out.append("")
+    cands = data["candidates"]
+    if cands:
+        width = max(12, min(60, max(len(c["smiles"]) for c in cands)))
+        out.append(f"{'rank':>4}  {'SMILES':<{width}}  {'prob':>6}  {'MAE':>5}  {'max':>5}  notes")
+        for c in cands:
+            notes = []
+            if c["overlapped_lines"]:
+                notes.append(f"{c['overlapped_lines']} overlap")
+            if c["split_classes"]:
+                notes.append(f"{c['split_classes']} split")
+            if c["unfilled_lines"]:
+                notes.append(f"{len(c['unfilled_lines'])} line(s) unexplained")
+            if c["max_error_ppm"] is not None and c["max_error_ppm"] > 10:
+                notes.append("large deviation")
+            out.append(
+                f"{c['rank']:>4}  {c['smiles']:<{width}}  {c['probability']:>6.3f}  "
+                f"{_f(c['mae_ppm'])}  {_f(c['max_error_ppm'])}  {', '.join(notes)}"
+            )
+        best = cands[0]
+        out.append("")
+        out.append(f"assignment of rank 1 ({best['smiles']}):")
+        out.append(f"  {'line':>4}  {'observed':>8}  {'predicted':>9}  {'diff':>6}  atoms")
+        for e in best["assignment"]:
+            diff = e["predicted"] - e["observed"]
+            kind = "" if e["kind"] == "primary" else f"  ({e['kind']})"
+            out.append(
+                f"  {e['peak_index'] + 1:>4}  {e['observed']:>8.2f}  {e['predicted']:>9.2f}  "
+                f"{diff:>+6.2f}  {','.join(str(a) for a in e['atoms'])}{kind}"
+            )
+    else:
+        out.append("no candidate structures")
+    out.append("")
+    out.append("constraints:")
+    for row in data["constraint_log"]:
+        out.append(f"  {row['constraint']}: {row['before']:,} -> {row['after']:,}")
+    if data["warnings"]:
+        out.append("")
+        out.append("warnings:")
+        for w in data["warnings"]:
+            out.append(f"  - {w}")
+    out.append("")
+    if data["complete"]:
+        out.append("The search was exhaustive under the stated constraints.")
+    else:
+        out.append("The search was cut short: structures may be missing from this list.")
+    out.append(data["caution"])
+    return "\n".join(out) + "\n"
+
+
+def _f(x) -> str:
+    return f"{x:>5.2f}" if x is not None else "    -"
