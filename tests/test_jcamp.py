@@ -445,3 +445,58 @@ def test_solvent_multiplet_patterns():
     assert [round(h * 1, 3) for _, h in solvent_multiplet("cdcl3", 100.0)] == [1.0, 1.0, 1.0]
     assert [round(h * 7) for _, h in solvent_multiplet("dmso-d6", 100.0)] == [1, 3, 6, 7, 6, 3, 1]
     assert solvent_multiplet("d2o", 100.0) == []
+
+
+from hypothesis import given, settings as hsettings
+from hypothesis import strategies as st
+
+
+@hsettings(max_examples=300, deadline=None)
+@given(st.lists(st.text(alphabet=st.sampled_from(list("0123456789.+- @ABIabiJKRjkr%STZs?$,E")), max_size=30), max_size=4))
+def test_any_data_lines_decode_or_raise_input_error(lines):
+    """Robustness (common practice, no source): damaged data never escape as other errors."""
+    try:
+        decode_xydata_lines(lines)
+    except InputError as exc:
+        assert "\n" not in str(exc)
+
+
+@hsettings(max_examples=150, deadline=None)
+@given(st.text(alphabet=st.sampled_from(list("#=TITLEXYDAFRSNPOU.()+,0123456789 \n$@ABJj")), max_size=200))
+def test_any_text_parses_or_raises_input_error(text):
+    try:
+        parse_jcamp(text)
+    except InputError as exc:
+        assert "\n" not in str(exc)
+
+
+def test_compound_file_with_dept_blocks(tmp_path, dept_files):
+    """One file holding 13C, DEPT-90 and DEPT-135 blocks (titles name them)."""
+    c13, d135, d90 = dept_files
+    parts = []
+    for path, title in ((c13, "sample 7 13C"), (d90, "sample 7 DEPT-90"), (d135, "sample 7 DEPT 135")):
+        text = path.read_text().replace("##TITLE=13C spectrum", f"##TITLE={title}", 1)
+        parts.append(text)
+    f = tmp_path / "all.jdx"
+    f.write_text("##TITLE=sample 7\n##JCAMP-DX=5.01\n##BLOCKS=3\n" + "".join(parts) + "##END=\n")
+    assert [b.experiment for b in read_jcamp_blocks(f)] == ["c13", "dept90", "dept135"]
+    pl = read_peaks(str(f))
+    got = {round(p.shift, 1): p.multiplicity for p in pl.peaks}
+    for shift, h in CARBONS:
+        assert got[round(shift, 1)] == ["C", "CH", "CH2", "CH3"][h]
+    assert any("compound file" in w for w in pl.provenance)
+
+
+def test_swapped_dept_files_are_flagged(tmp_path):
+    c13 = tmp_path / "c.jdx"
+    c13.write_text(format_jcamp_peak_table([60.4, 14.2]))
+    d = tmp_path / "d.jdx"
+    d.write_text(format_jcamp_peak_table([60.4, 14.2], [-1, 1], title="DEPT-90 run"))
+    pl = peaks_from_jcamp(c13, dept135_path=d)
+    assert any("labelled DEPT90" in w for w in pl.warnings)
+
+
+def test_pulse_sequence_record():
+    text = "##TITLE=run 12\n##$PULPROG=<dept135>\n##PEAK TABLE=(XY..XY)\n10,1\n##END=\n"
+    spec = parse_jcamp(text)[0]
+    assert spec.pulse_sequence == "dept135" and spec.experiment == "dept135"

@@ -406,3 +406,15 @@ def test_roundtrip_text(items):
     text = "\n".join(f"{s} {m} {'' if c is None else c}" for s, m, c in items)
     pl = parse_peaks(text)
     assert triples(pl) == [(float(s), m, c) for s, m, c in items]
+
+
+@settings(max_examples=300, deadline=None)
+@given(st.text(alphabet=st.sampled_from(list("0123456789.,;:\t \n#-+eEcChHdDqQstT?()xX₂abcfilmpuw\"'")), max_size=60))
+def test_any_text_gives_a_list_or_an_input_error(text):
+    """Robustness (common practice, no source): never a traceback-type error."""
+    try:
+        pl = parse_peaks(text)
+    except InputError as exc:
+        assert str(exc) and "\n" not in str(exc)
+    else:
+        assert pl.n_lines >= 1

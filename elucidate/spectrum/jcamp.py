@@ -53,6 +53,7 @@ results are hypotheses to check against the spectra.
 from __future__ import annotations
 
 import bisect
+import dataclasses
 import math
 import os
 import re
@@ -301,6 +302,17 @@ class JcampSpectrum:
     is_peak_table: bool = False
     source: str = ""
     warnings: tuple[str, ...] = ()
+    pulse_sequence: str | None = None
+
+    @property
+    def experiment(self) -> str:
+        """``"dept135"``, ``"dept90"``, ``"dept45"`` or ``"c13"``, read from the
+        title, data type and pulse-sequence records (best effort)."""
+        text = " ".join(t for t in (self.title, self.data_type, self.pulse_sequence or "") if t).upper()
+        m = re.search(r"DEPT\W*(135|90|45)", text)
+        if m:
+            return "dept" + m.group(1)
+        return "c13"
 
     def __post_init__(self) -> None:
         x = np.asarray(self.x, dtype=float)
@@ -484,6 +496,9 @@ def _ntuples_real_page(block: _Block, name, title, data_type, nucleus, mhz) -> J
     return JcampSpectrum(title, data_type, nucleus, mhz, x, y, False, name, tuple(warnings))
 
 
+_PULSE_LABELS = (".PULSESEQUENCE", "PULSESEQUENCE", "$PULPROG", "$PULSEPROGRAM", ".PULSEPROGRAM")
+
+
 def parse_jcamp(text: str, name: str = "JCAMP-DX text") -> tuple[JcampSpectrum, ...]:
     """Parse JCAMP-DX text into its data blocks (spectra and peak tables).
 
@@ -498,6 +513,9 @@ def parse_jcamp(text: str, name: str = "JCAMP-DX text") -> tuple[JcampSpectrum, 
     for block in _blocks(text.lstrip("\ufeff"), name):
         spec = _spectrum_from_block(block, name)
         if spec is not None:
+            pulse = next((block.get(lab) for lab in _PULSE_LABELS if block.get(lab)), None)
+            if pulse:
+                spec = dataclasses.replace(spec, pulse_sequence=pulse.strip().strip("<>"))
             out.append(spec)
     if not out:
         raise InputError(
@@ -792,6 +810,27 @@ def _load(path, role: str) -> JcampSpectrum:
         raise InputError(f"{role}: {exc}") from None
 
 
+def _split_compound(blocks):
+    """Roles of the blocks of a compound file: (c13, dept135, dept90, notes)."""
+    by_kind: dict[str, JcampSpectrum] = {}
+    for b in blocks:
+        by_kind.setdefault(b.experiment, b)
+    if "c13" not in by_kind:
+        raise InputError(
+            f"{blocks[0].source} holds {len(blocks)} spectra but none is a plain 13C spectrum "
+            "(titles mention DEPT only); give the 13C spectrum file"
+        )
+    used = [by_kind.get(k) for k in ("c13", "dept135", "dept90")]
+    notes = []
+    if used[1] is not None or used[2] is not None:
+        found = ", ".join(f"{k.upper()} '{by_kind[k].title}'" for k in ("dept135", "dept90") if k in by_kind)
+        notes.append(f"compound file {blocks[0].source}: 13C '{used[0].title}' with {found} (by block titles)")
+    ignored = len(blocks) - sum(u is not None for u in used)
+    if ignored:
+        notes.append(f"compound file {blocks[0].source}: {ignored} further block(s) ignored")
+    return used[0], used[1], used[2], notes
+
+
 def _nearest(line_shifts: list[float], pos: float, tol: float) -> int | None:
     best, best_d = None, tol
     for i, s in enumerate(line_shifts):
@@ -810,6 +849,9 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
         The broadband-decoupled 13C spectrum or its peak table.
     dept135_path, dept90_path : optional
         DEPT-135 / DEPT-90 spectra (or signed peak tables) of the same sample.
+        When neither is given and ``c13_path`` is a compound file with
+        several blocks, the blocks are told apart by their titles or
+        pulse-sequence records ("DEPT-135", "DEPT90", ...).
     settings : PickSettings, optional
 
     Returns
@@ -821,6 +863,14 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
     """
     if settings is None:
         settings = PickSettings()
+    notes: list[str] = []
+    if not isinstance(c13_path, JcampSpectrum) and dept135_path is None and dept90_path is None:
+        try:
+            blocks = read_jcamp_blocks(c13_path)
+        except InputError as exc:
+            raise InputError(f"13C spectrum: {exc}") from None
+        if len(blocks) > 1:
+            c13_path, dept135_path, dept90_path, notes = _split_compound(blocks)
     c13 = _load(c13_path, "13C spectrum")
     picked = pick_peaks(c13, settings)
     if not picked.shifts:
@@ -829,7 +879,7 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
             "lower the threshold or check the file"
         )
     shifts = list(picked.shifts)
-    provenance = [
+    provenance = notes + [
         f"13C lines from peak table {c13.source}" if c13.is_peak_table else picked.describe()
     ]
     warnings = list(c13.warnings)
@@ -842,6 +892,12 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
         if path is None:
             continue
         spec = _load(path, f"{role} spectrum")
+        kind = spec.experiment
+        wanted = role.replace("-", "").lower()
+        if kind.startswith("dept") and kind != wanted:
+            warnings.append(
+                f"the spectrum given as {role} ({spec.source}) is labelled {kind.upper()}; check the files"
+            )
         dp = pick_peaks(spec, settings, both_signs=both)
         provenance.append(
             f"{role} lines from peak table {spec.source}" if spec.is_peak_table else f"{role}: {dp.describe()}"
