@@ -500,3 +500,45 @@ def test_pulse_sequence_record():
     text = "##TITLE=run 12\n##$PULPROG=<dept135>\n##PEAK TABLE=(XY..XY)\n10,1\n##END=\n"
     spec = parse_jcamp(text)[0]
     assert spec.pulse_sequence == "dept135" and spec.experiment == "dept135"
+
+
+# --------------------------------------------------------------------------
+# the DEPT rules on line lists (common practice, no source)
+
+
+def test_classify_rules_and_conflicts():
+    from elucidate.spectrum.dept import classify_multiplicities
+
+    shifts = [170.0, 128.0, 60.0, 14.0, 40.0, 30.0]
+    d135 = [(128.02, 0.7), (60.0, -1.0), (14.0, 1.0), (40.0, 1.0), (40.01, -1.0), (30.0, -1.0), (90.0, 1.0)]
+    d90 = [(128.0, 1.0), (14.0, 0.05), (30.0, 0.9)]
+    hyd, warnings = classify_multiplicities(shifts, d135, d90)
+    assert hyd == (0, 1, 2, 3, None, None)
+    text = " | ".join(warnings)
+    assert "40.00 ppm shows both positive and negative" in text
+    assert "30.00 ppm is positive in DEPT-90 but negative in DEPT-135" in text
+    assert "90.00" in text  # unmatched DEPT-135 line
+    assert classify_multiplicities(shifts) == ((None,) * 6, ())
+
+
+def test_classify_rejects_bad_lines():
+    from elucidate.spectrum.dept import classify_multiplicities
+
+    with pytest.raises(InputError, match="pairs"):
+        classify_multiplicities([10.0], dept135=[(10.0,)])
+    with pytest.raises(InputError, match="not finite"):
+        classify_multiplicities([10.0], dept90=[(10.0, float("inf"))])
+    with pytest.raises(InputError, match="tolerance"):
+        classify_multiplicities([10.0], dept90=[], match_tolerance_ppm=0)
+
+
+def test_module_doctests():
+    import doctest
+
+    import elucidate.spectrum.dept as dept_mod
+    import elucidate.spectrum.peaks as peaks_mod
+    import elucidate.spectrum.solvents as solvents_mod
+
+    for mod in (dept_mod, peaks_mod, solvents_mod):
+        failed, tried = doctest.testmod(mod)
+        assert failed == 0 and tried > 0, mod.__name__

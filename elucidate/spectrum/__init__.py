@@ -1,18 +1,17 @@
 """Observed spectra: 13C peak lists, solvent lines and JCAMP-DX input.
 
-Results built on these inputs are hypotheses; the picked and edited peak
+Modules: :mod:`.peaks` (typed/filed peak lists and their checks against a
+formula), :mod:`.solvents` (solvent lines and their removal),
+:mod:`.jcamp` (JCAMP-DX reading), :mod:`.picking` (peak picking),
+:mod:`.dept` (multiplicities from DEPT), :mod:`.jcamp_write` and
+:mod:`.synthetic` (writing demonstration/test spectra).
+
+Results built on these inputs are hypotheses; picked and DEPT-edited peak
 lists should be checked against the spectra by the analyst.
 """
 
-from .jcamp import (
-    JcampSpectrum,
-    PickedPeaks,
-    PickSettings,
-    peaks_from_jcamp,
-    pick_peaks,
-    read_jcamp,
-    read_jcamp_blocks,
-)
+from .dept import classify_multiplicities
+from .jcamp import JcampSpectrum, peaks_from_jcamp, read_jcamp, read_jcamp_blocks
 from .peaks import (
     Peak,
     PeakList,
@@ -21,6 +20,7 @@ from .peaks import (
     peaks_from_records,
     read_peaks,
 )
+from .picking import PickedPeaks, PickSettings, pick_peaks
 from .solvents import (
     SOLVENT_LINES,
     multiplet_lines,
@@ -42,10 +42,11 @@ __all__ = [
     "remove_solvent_lines",
     "multiplet_lines",
     "JcampSpectrum",
-    "PickSettings",
-    "PickedPeaks",
     "read_jcamp",
     "read_jcamp_blocks",
-    "pick_peaks",
     "peaks_from_jcamp",
+    "PickSettings",
+    "PickedPeaks",
+    "pick_peaks",
+    "classify_multiplicities",
 ]

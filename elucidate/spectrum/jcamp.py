@@ -1,4 +1,4 @@
-"""Reading 13C spectra and peak tables from JCAMP-DX files; peak picking; DEPT.
+"""Reading 13C spectra and peak tables from JCAMP-DX files.
 
 JCAMP-DX is the IUPAC open exchange format for spectra: R. S. McDonald and
 P. A. Wilks, Appl. Spectrosc. 1988, 42, 151 (the format and its ASCII
@@ -25,34 +25,15 @@ Labels are compared ignoring case, blanks, dashes, slashes and underscores,
 as the standard prescribes; ``$$`` starts a comment.  Linked/compound
 files are split into their ``##TITLE ... ##END`` blocks.
 
-Peak picking
-------------
-:func:`pick_peaks` estimates a baseline as a piecewise-linear curve
-through the medians of equal segments of the spectrum, the noise as the
-scaled median absolute deviation (MAD x 1.4826, a robust estimate of the
-standard deviation; Hampel 1974, from memory) of the baseline-corrected
-ordinates, keeps local extrema above ``snr`` x noise (and above a fraction
-of the tallest line) whose topographic prominence (rise above the deeper
-of the two valleys separating them from taller lines) also exceeds
-``snr`` x noise, which rejects noise ripples on the flanks of strong
-lines, refines each position by a parabola through the
-three top points, and enforces a minimum separation by keeping the taller
-of two close lines.  The settings travel with the result for reports.
-
-DEPT
-----
-With a DEPT-135 and a DEPT-90 spectrum of the same sample, each 13C line is
-classified by the usual reading (common practice, no source): positive in
-DEPT-90 -> CH; positive in DEPT-135 but not in DEPT-90 -> CH3; negative in
-DEPT-135 -> CH2; absent from both -> C.  With DEPT-135 alone, positive lines
-stay unknown (CH or CH3); with DEPT-90 alone, lines absent from it stay
-unknown.  Residual CH3/CH2 signals in an imperfect DEPT-90 can pass as CH:
-results are hypotheses to check against the spectra.
+:func:`peaks_from_jcamp` turns a 13C file (plus optional DEPT-135/DEPT-90
+files, or one compound file holding them) into a
+:class:`~elucidate.spectrum.peaks.PeakList`, picking lines with
+:mod:`elucidate.spectrum.picking` and reading multiplicities with
+:mod:`elucidate.spectrum.dept`.
 """
 
 from __future__ import annotations
 
-import bisect
 import dataclasses
 import math
 import os
@@ -62,18 +43,21 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from .peaks import SHIFT_RANGE, Peak, PeakList
+from .dept import classify_multiplicities
+from .peaks import Peak, PeakList, _merge
+from .picking import PickedPeaks, PickSettings, pick_peaks
 
 __all__ = [
     "JcampSpectrum",
-    "PickSettings",
-    "PickedPeaks",
     "read_jcamp",
     "read_jcamp_blocks",
     "parse_jcamp",
     "decode_xydata_lines",
-    "pick_peaks",
     "peaks_from_jcamp",
+    # re-exported for convenience (defined in .picking)
+    "PickSettings",
+    "PickedPeaks",
+    "pick_peaks",
 ]
 
 # ----------------------------------------------------------------------------
@@ -570,234 +554,6 @@ def read_jcamp(path) -> JcampSpectrum:
 
 
 # ----------------------------------------------------------------------------
-# peak picking
-
-
-@dataclass(frozen=True)
-class PickSettings:
-    """Peak-picking settings (all shown in reports).
-
-    Attributes
-    ----------
-    snr : float
-        A line must rise above the baseline by ``snr`` x the noise.
-    min_relative_height : float
-        ... and by this fraction of the tallest line (0-1).
-    min_separation_ppm : float
-        Two picked lines are at least this far apart; the taller wins.
-    baseline_segments : int
-        Number of segments whose medians define the baseline.
-    ppm_range : tuple of float
-        Only lines inside this window are kept.
-    match_tolerance_ppm : float
-        DEPT lines are matched to 13C lines within this distance.
-    dept90_min_fraction : float
-        A DEPT-90 line counts as CH only if at least this fraction of the
-        tallest DEPT-90 line (suppresses CH2/CH3 residues).
-    """
-
-    snr: float = 5.0
-    min_relative_height: float = 0.01
-    min_separation_ppm: float = 0.03
-    baseline_segments: int = 32
-    ppm_range: tuple[float, float] = SHIFT_RANGE
-    match_tolerance_ppm: float = 0.15
-    dept90_min_fraction: float = 0.2
-
-    def __post_init__(self) -> None:
-        def pos(name, v, hi=None):
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v) or v < 0 or (
-                hi is not None and v > hi
-            ):
-                rng = f"0...{hi:g}" if hi is not None else "a number >= 0"
-                raise InputError(f"peak picking setting {name}={v!r} must be {rng}")
-
-        pos("snr", self.snr)
-        pos("min_relative_height", self.min_relative_height, 1.0)
-        pos("min_separation_ppm", self.min_separation_ppm, 50.0)
-        pos("match_tolerance_ppm", self.match_tolerance_ppm, 5.0)
-        pos("dept90_min_fraction", self.dept90_min_fraction, 1.0)
-        if isinstance(self.baseline_segments, bool) or not isinstance(self.baseline_segments, int) or not (
-            1 <= self.baseline_segments <= 4096
-        ):
-            raise InputError(
-                f"peak picking setting baseline_segments={self.baseline_segments!r} must be an integer 1...4096"
-            )
-        r = self.ppm_range
-        if not (isinstance(r, tuple) and len(r) == 2 and all(isinstance(v, (int, float)) for v in r) and r[0] < r[1]):
-            raise InputError(f"peak picking setting ppm_range={r!r} must be (low, high) with low < high")
-
-    def describe(self) -> str:
-        return (
-            f"baseline: median of {self.baseline_segments} segments; threshold: {self.snr:g} x noise "
-            f"(MAD) and {self.min_relative_height:g} x tallest line; minimum separation "
-            f"{self.min_separation_ppm:g} ppm; window {self.ppm_range[0]:g}...{self.ppm_range[1]:g} ppm"
-        )
-
-
-@dataclass(frozen=True)
-class PickedPeaks:
-    """Lines picked from a spectrum, with what was used to pick them.
-
-    Attributes
-    ----------
-    shifts : tuple of float
-        Line positions, ppm, in descending order.
-    heights : tuple of float
-        Baseline-corrected heights (negative for inverted lines).
-    settings : PickSettings
-    noise : float
-        Robust noise estimate (MAD x 1.4826) of the corrected spectrum.
-    threshold : float
-        Height a line had to exceed.
-    source : str
-    """
-
-    shifts: tuple[float, ...]
-    heights: tuple[float, ...]
-    settings: PickSettings
-    noise: float
-    threshold: float
-    source: str = ""
-
-    def __len__(self) -> int:
-        return len(self.shifts)
-
-    def describe(self) -> str:
-        return (
-            f"{len(self.shifts)} lines picked from {self.source or 'spectrum'}: "
-            f"{self.settings.describe()}; noise {self.noise:.3g}, threshold {self.threshold:.3g}"
-        )
-
-
-def _baseline(y: np.ndarray, segments: int) -> np.ndarray:
-    n = y.size
-    segments = max(1, min(segments, n // 8 or 1))
-    edges = np.linspace(0, n, segments + 1).astype(int)
-    centers = np.array([(a + b - 1) / 2.0 for a, b in zip(edges[:-1], edges[1:])])
-    medians = np.array([np.median(y[a:b]) for a, b in zip(edges[:-1], edges[1:])])
-    return np.interp(np.arange(n), centers, medians)
-
-
-def _nearest_higher(s: np.ndarray, i: int, step: int) -> int | None:
-    """Index of the nearest point beyond ``i`` (direction ``step``) higher than s[i]."""
-    h, n, w = s[i], s.size, 32
-    while True:
-        if step < 0:
-            lo = max(0, i - w)
-            hit = np.nonzero(s[lo:i] > h)[0]
-            if hit.size:
-                return lo + int(hit[-1])
-            if lo == 0:
-                return None
-        else:
-            hi = min(n, i + 1 + w)
-            hit = np.nonzero(s[i + 1 : hi] > h)[0]
-            if hit.size:
-                return i + 1 + int(hit[0])
-            if hi == n:
-                return None
-        w *= 4
-
-
-def _prominence(s: np.ndarray, i: int) -> float:
-    """Topographic prominence of the local maximum ``s[i]``.
-
-    The height of ``s[i]`` above the higher of the two lowest points met
-    when walking left and right until a higher point (or the end).  The
-    search window grows geometrically, so noise ripples cost little.
-    """
-    left = _nearest_higher(s, i, -1)
-    right = _nearest_higher(s, i, +1)
-    lmin = s[(left if left is not None else 0) : i + 1].min()
-    rmin = s[i : (right + 1 if right is not None else s.size)].min()
-    return float(s[i] - max(lmin, rmin))
-
-
-def pick_peaks(spectrum: JcampSpectrum, settings: PickSettings | None = None, *, both_signs: bool = False) -> PickedPeaks:
-    """Pick lines from a sampled spectrum (or take them from a peak table).
-
-    Parameters
-    ----------
-    spectrum : JcampSpectrum
-    settings : PickSettings, optional
-    both_signs : bool
-        Also pick inverted (negative) lines, as in DEPT-135.
-
-    Returns
-    -------
-    PickedPeaks
-    """
-    if settings is None:
-        settings = PickSettings()
-    if not isinstance(settings, PickSettings):
-        raise InputError(f"settings must be PickSettings, got {type(settings).__name__}")
-    if not isinstance(spectrum, JcampSpectrum):
-        raise InputError(f"spectrum must be a JcampSpectrum, got {type(spectrum).__name__}")
-    lo, hi = settings.ppm_range
-    x, y = spectrum.x, spectrum.y
-    if spectrum.is_peak_table:
-        # A table lists lines; for DEPT-135 the sign matters, a 0 carries none.
-        keep = (x >= lo) & (x <= hi)
-        if both_signs:
-            keep &= y != 0
-        order = np.argsort(-x[keep], kind="stable")
-        xs, hs = x[keep][order], y[keep][order]
-        return PickedPeaks(
-            tuple(float(round(v, 4)) for v in xs), tuple(float(v) for v in hs), settings, 0.0, 0.0, spectrum.source
-        )
-    if x.size < 5:
-        raise InputError(f"{spectrum.source}: the spectrum has only {x.size} points; too few to pick lines")
-    base = _baseline(y, settings.baseline_segments)
-    r = y - base
-    noise = float(np.median(np.abs(r - np.median(r))) * 1.4826)
-    tallest = float(np.max(np.abs(r))) if both_signs else float(np.max(r))
-    threshold = max(settings.snr * noise, settings.min_relative_height * max(tallest, 0.0))
-    if threshold <= 0:
-        threshold = 1e-12 * max(abs(tallest), 1.0)
-    min_prominence = settings.snr * noise
-    cands: list[tuple[float, float]] = []
-    signs = (1.0, -1.0) if both_signs else (1.0,)
-    idx_all = np.arange(1, r.size - 1)
-    for sgn in signs:
-        s = sgn * r
-        mid = s[1:-1]
-        is_max = (mid > threshold) & (mid >= s[:-2]) & (mid > s[2:])
-        for i in idx_all[is_max]:
-            if _prominence(s, int(i)) < min_prominence:
-                continue  # a noise ripple on the flank of a taller line
-            a, b, c = s[i - 1], s[i], s[i + 1]
-            denom = a - 2 * b + c
-            p = 0.5 * (a - c) / denom if denom < 0 else 0.0
-            p = max(-0.5, min(0.5, p))
-            j = int(i) if p >= 0 else int(i) - 1
-            frac = p if p >= 0 else 1.0 + p
-            pos = float(x[j] + frac * (x[j + 1] - x[j]))
-            height = b - 0.25 * (a - c) * p
-            if lo <= pos <= hi:
-                cands.append((pos, sgn * float(height)))
-    cands.sort(key=lambda t: (-abs(t[1]), -t[0]))
-    chosen: list[tuple[float, float]] = []
-    taken: list[float] = []  # sorted positions already chosen
-    sep = settings.min_separation_ppm
-    for pos, h in cands:
-        k = bisect.bisect_left(taken, pos)
-        if (k < len(taken) and taken[k] - pos < sep) or (k > 0 and pos - taken[k - 1] < sep):
-            continue
-        taken.insert(k, pos)
-        chosen.append((pos, h))
-    chosen.sort(key=lambda t: -t[0])
-    return PickedPeaks(
-        tuple(round(p, 4) for p, _ in chosen),
-        tuple(h for _, h in chosen),
-        settings,
-        noise,
-        float(threshold),
-        spectrum.source,
-    )
-
-
-# ----------------------------------------------------------------------------
 # 13C + DEPT -> peak list
 
 
@@ -829,15 +585,6 @@ def _split_compound(blocks):
     if ignored:
         notes.append(f"compound file {blocks[0].source}: {ignored} further block(s) ignored")
     return used[0], used[1], used[2], notes
-
-
-def _nearest(line_shifts: list[float], pos: float, tol: float) -> int | None:
-    best, best_d = None, tol
-    for i, s in enumerate(line_shifts):
-        d = abs(s - pos)
-        if d <= best_d:
-            best, best_d = i, d
-    return best
 
 
 def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: PickSettings | None = None) -> PeakList:
@@ -883,11 +630,7 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
         f"13C lines from peak table {c13.source}" if c13.is_peak_table else picked.describe()
     ]
     warnings = list(c13.warnings)
-    hyd: list[int | None] = [None] * len(shifts)
-    d135_sign: list[set[int]] = [set() for _ in shifts]
-    in90 = [False] * len(shifts)
-    have135 = dept135_path is not None
-    have90 = dept90_path is not None
+    dept_lines: dict[str, tuple[tuple[float, float], ...] | None] = {"DEPT-135": None, "DEPT-90": None}
     for role, path, both in (("DEPT-135", dept135_path, True), ("DEPT-90", dept90_path, False)):
         if path is None:
             continue
@@ -903,54 +646,16 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
             f"{role} lines from peak table {spec.source}" if spec.is_peak_table else f"{role}: {dp.describe()}"
         )
         warnings.extend(spec.warnings)
-        tallest = max((abs(h) for h in dp.heights), default=0.0)
-        unmatched = []
-        for pos, h in zip(dp.shifts, dp.heights):
-            if role == "DEPT-90" and (h <= 0 or abs(h) < settings.dept90_min_fraction * tallest):
-                continue
-            i = _nearest(shifts, pos, settings.match_tolerance_ppm)
-            if i is None:
-                unmatched.append(pos)
-                continue
-            if role == "DEPT-135":
-                d135_sign[i].add(1 if h > 0 else -1)
-            else:
-                in90[i] = True
-        if unmatched:
-            warnings.append(
-                f"{role} lines without a 13C line within {settings.match_tolerance_ppm:g} ppm ignored: "
-                + ", ".join(f"{p:.2f}" for p in unmatched)
-            )
-    if have135 or have90:
-        for i in range(len(shifts)):
-            signs = d135_sign[i]
-            if len(signs) > 1:
-                warnings.append(
-                    f"{shifts[i]:.2f} ppm shows both positive and negative DEPT-135 lines; multiplicity left unknown"
-                )
-                continue
-            if in90[i]:
-                hyd[i] = 1
-                if have135 and signs == {-1}:
-                    hyd[i] = None
-                    warnings.append(
-                        f"{shifts[i]:.2f} ppm is positive in DEPT-90 but negative in DEPT-135; multiplicity left unknown"
-                    )
-            elif signs == {-1}:
-                hyd[i] = 2
-            elif signs == {1}:
-                hyd[i] = 3 if have90 else None
-            else:
-                hyd[i] = 0 if have135 else None
-        if have135 and not have90:
-            warnings.append(
-                "DEPT-135 without DEPT-90: positive lines are CH or CH3 and stay unknown"
-            )
-        if have90 and not have135:
-            warnings.append("DEPT-90 without DEPT-135: only CH lines are known")
+        dept_lines[role] = tuple(zip(dp.shifts, dp.heights))
+    hyd, notes_dept = classify_multiplicities(
+        shifts,
+        dept_lines["DEPT-135"],
+        dept_lines["DEPT-90"],
+        match_tolerance_ppm=settings.match_tolerance_ppm,
+        dept90_min_fraction=settings.dept90_min_fraction,
+    )
+    warnings.extend(notes_dept)
     peaks = tuple(Peak(round(s, 2), h, None) for s, h in zip(shifts, hyd))
     # Rounding can make two picked lines identical: merge them as typed lists do.
-    from .peaks import _merge
-
     merged = _merge(peaks, tuple(warnings))
     return PeakList(merged.peaks, merged.warnings, tuple(provenance), c13.observe_mhz)
