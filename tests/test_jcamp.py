@@ -142,6 +142,11 @@ def test_x_check_mismatch_gives_warning():
     assert any("X check" in w for w in spec.warnings)
 
 
+def test_deltax_instead_of_lastx():
+    text = "##TITLE=t\n##FIRSTX=10\n##DELTAX=-2\n##NPOINTS=3\n##XYDATA=(X++(Y..Y))\n10 1 2 3\n##END=\n"
+    assert list(parse_jcamp(text)[0].x) == [10, 8, 6]
+
+
 def test_labels_are_normalised():
     text = "##title=t\n##First_X=1\n##last x=0\n##N-POINTS=2\n##XY DATA=(X++(Y..Y))\n1 5 6\n##END=\n"
     spec = parse_jcamp(text)[0]
@@ -310,6 +315,21 @@ def test_spectrum_object_validation():
         JcampSpectrum("t", "", None, None, [1.0, float("nan")], [1.0, 2.0])
     with pytest.raises(InputError, match="too few"):
         pick_peaks(spec)
+
+
+def test_normal_tail_quantile():
+    from elucidate.spectrum.picking import _normal_quantile_upper
+
+    # Standard normal table (common knowledge, from memory): P(Z>2)=0.02275, P(Z>3)=0.00135.
+    assert _normal_quantile_upper(0.02275) == pytest.approx(2.0, abs=1e-3)
+    assert _normal_quantile_upper(0.00135) == pytest.approx(3.0, abs=2e-3)
+
+
+def test_threshold_rises_with_spectrum_size():
+    for n, lo, hi in ((4096, 5.0, 5.1), (262144, 5.6, 5.9)):
+        x, y = lorentzian_spectrum([(100.0, 50)], npoints=n, noise=1.0, width_hz=20)
+        picked = pick_peaks(JcampSpectrum("t", "", None, 100.6, x, y))
+        assert lo <= picked.k <= hi and "x noise" in picked.describe()
 
 
 def test_noiseless_spectrum():
@@ -542,3 +562,56 @@ def test_module_doctests():
     for mod in (dept_mod, peaks_mod, solvents_mod):
         failed, tried = doctest.testmod(mod)
         assert failed == 0 and tried > 0, mod.__name__
+
+
+# --------------------------------------------------------------------------
+# outside-world check: real shift lists (open nmrshiftdb2 data)
+
+
+def test_picking_and_dept_on_database_shift_lists():
+    """Spectra synthesised from real assigned shift lists give the lines and
+    multiplicities back.
+
+    Source: the open nmrshiftdb2 spectra in ../shared/data/train_spectra.jsonl.gz
+    (shift and multiplicity per carbon).  Lines closer than 0.1 ppm are merged
+    first (they are one line at this resolution).
+    """
+    import gzip
+    import itertools
+    import json
+    from pathlib import Path
+
+    from elucidate.spectrum.dept import classify_multiplicities
+
+    path = Path(__file__).resolve().parents[1].parent / "shared" / "data" / "train_spectra.jsonl.gz"
+    if not path.exists():
+        pytest.skip(f"reference data not present at {path} (only in the development checkout)")
+    hmap = {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}
+    checked = 0
+    with gzip.open(path, "rt", encoding="utf-8") as fh:
+        for line in itertools.islice(fh, 0, 400, 10):
+            rec = json.loads(line)
+            groups: list[list] = []  # merged lines: [shift, hydrogens set, n]
+            for shift, mult in sorted(rec["shifts"]):
+                if not -10 < shift < 230:
+                    break
+                if groups and shift - groups[-1][0] < 0.1:
+                    groups[-1][1].add(hmap[mult])
+                    groups[-1][2] += 1
+                else:
+                    groups.append([shift, {hmap[mult]}, 1])
+            else:
+                lines = [(g[0], 30.0 * g[2] if 0 not in g[1] else 12.0 * g[2]) for g in groups]
+                x, y = lorentzian_spectrum(lines, npoints=65536, width_hz=1.0, noise=0.3, seed=checked)
+                spec = JcampSpectrum("t", "", "^13C", 100.6, x, y, source=str(rec["source_id"]))
+                picked = pick_peaks(spec)
+                want = sorted((g[0] for g in groups), reverse=True)
+                assert len(picked.shifts) == len(want), rec["smiles"]
+                assert np.max(np.abs(np.array(picked.shifts) - want)) < 0.1
+                single = [g for g in groups if len(g[1]) == 1]
+                d135 = [(g[0], dept_heights(next(iter(g[1])), 135)) for g in single if 0 not in g[1]]
+                d90 = [(g[0], 1.0) for g in single if g[1] == {1}]  # only CH shows at 90 degrees
+                hyd, _ = classify_multiplicities([g[0] for g in single], d135, d90)
+                assert list(hyd) == [next(iter(g[1])) for g in single], rec["smiles"]
+                checked += 1
+    assert checked >= 25

@@ -17,7 +17,7 @@ What is read
 * ``##NTUPLES`` blocks: the real page ``##DATA TABLE=(X++(R..R)), XYDATA``
   (axis from the ``##FIRST``/``##LAST``/``##FACTOR``/``##VAR_DIM``/``##UNITS``
   columns of the X and R variables).
-* ``##FIRSTX``, ``##LASTX``, ``##NPOINTS``, ``##XFACTOR``, ``##YFACTOR``,
+* ``##FIRSTX``, ``##LASTX`` (or ``##DELTAX``), ``##NPOINTS``, ``##XFACTOR``, ``##YFACTOR``,
   ``##XUNITS`` (PPM or HZ; Hz are converted with ``##.OBSERVE FREQUENCY``
   in MHz) and ``##.OBSERVE NUCLEUS`` (must be 13C when present).
 
@@ -397,6 +397,9 @@ def _spectrum_from_block(block: _Block, name: str) -> JcampSpectrum | None:
     first = _num(block, "FIRSTX", name)
     last = _num(block, "LASTX", name)
     npts = _num(block, "NPOINTS", name)
+    delta = _num(block, "DELTAX", name)
+    if last is None and first is not None and npts is not None and delta is not None:
+        last = first + (npts - 1) * delta
     if first is None or last is None or npts is None:
         raise InputError(f"{name}: ##XYDATA needs ##FIRSTX, ##LASTX and ##NPOINTS; add the missing records")
     x, y, warnings = _sampled(lines, no, first, last, npts, xfactor, yfactor, name)

@@ -1,16 +1,26 @@
 """Peak picking in a sampled 1D spectrum.
 
-:func:`pick_peaks` estimates a baseline as a piecewise-linear curve
-through the medians of equal segments of the spectrum, the noise as the
-scaled median absolute deviation (MAD x 1.4826, a robust estimate of the
-standard deviation; Hampel 1974, from memory) of the baseline-corrected
-ordinates, keeps local extrema above ``snr`` x noise (and above a fraction
-of the tallest line) whose topographic prominence (rise above the deeper
-of the two valleys separating them from taller lines) also exceeds
-``snr`` x noise, which rejects noise ripples on the flanks of strong
-lines, refines each position by a parabola through the
-three top points, and enforces a minimum separation by keeping the taller
-of two close lines.  The settings travel with the result for reports.
+:func:`pick_peaks` works in five steps:
+
+1. baseline: a piecewise-linear curve through the medians of equal
+   segments of the spectrum, subtracted;
+2. noise: the scaled median absolute deviation (MAD x 1.4826, a robust
+   estimate of the standard deviation; Hampel 1974, from memory) of the
+   corrected ordinates;
+3. threshold: k x noise, where k is ``snr`` or more, so that Gaussian noise
+   alone would give at most ``false_line_rate`` false lines per spectrum
+   (Bonferroni bound over the N points: P(Z > k) = rate / N; Bonferroni
+   1936, from memory), and at least a fraction of the tallest line;
+4. lines: local extrema above the threshold whose topographic prominence
+   (rise above the deeper of the two valleys separating them from taller
+   lines) also exceeds k x noise, which rejects noise ripples on the flanks
+   of strong lines; each position is refined by a parabola through the
+   three top points;
+5. minimum separation: of two lines closer than ``min_separation_ppm`` the
+   taller is kept.
+
+The settings and the derived noise and threshold travel with the result
+(:class:`PickedPeaks`) so that reports can show them.
 
 The spectrum may be any object with ``x`` (ppm) and ``y`` arrays, an
 ``is_peak_table`` flag (then the lines are taken as they are) and a
@@ -38,7 +48,11 @@ class PickSettings:
     Attributes
     ----------
     snr : float
-        A line must rise above the baseline by ``snr`` x the noise.
+        A line must rise above the baseline by at least ``snr`` x the noise.
+    false_line_rate : float
+        The threshold is raised, when needed, so that pure Gaussian noise
+        would give this many false lines per spectrum on average
+        (Bonferroni bound over the N points: z with P(Z > z) = rate / N).
     min_relative_height : float
         ... and by this fraction of the tallest line (0-1).
     min_separation_ppm : float
@@ -55,6 +69,7 @@ class PickSettings:
     """
 
     snr: float = 5.0
+    false_line_rate: float = 0.001
     min_relative_height: float = 0.01
     min_separation_ppm: float = 0.03
     baseline_segments: int = 32
@@ -71,6 +86,9 @@ class PickSettings:
                 raise InputError(f"peak picking setting {name}={v!r} must be {rng}")
 
         pos("snr", self.snr)
+        pos("false_line_rate", self.false_line_rate, 1.0)
+        if self.false_line_rate == 0:
+            raise InputError("peak picking setting false_line_rate=0 must be above 0 (e.g. 0.001)")
         pos("min_relative_height", self.min_relative_height, 1.0)
         pos("min_separation_ppm", self.min_separation_ppm, 50.0)
         pos("match_tolerance_ppm", self.match_tolerance_ppm, 5.0)
@@ -87,8 +105,9 @@ class PickSettings:
 
     def describe(self) -> str:
         return (
-            f"baseline: median of {self.baseline_segments} segments; threshold: {self.snr:g} x noise "
-            f"(MAD) and {self.min_relative_height:g} x tallest line; minimum separation "
+            f"baseline: median of {self.baseline_segments} segments; threshold: at least {self.snr:g} x noise "
+            f"(MAD; raised to keep {self.false_line_rate:g} false lines per spectrum) and "
+            f"{self.min_relative_height:g} x tallest line; minimum separation "
             f"{self.min_separation_ppm:g} ppm; window {self.ppm_range[0]:g}...{self.ppm_range[1]:g} ppm"
         )
 
@@ -108,6 +127,8 @@ class PickedPeaks:
         Robust noise estimate (MAD x 1.4826) of the corrected spectrum.
     threshold : float
         Height a line had to exceed.
+    k : float
+        The threshold in units of the noise actually used (>= ``snr``).
     source : str
     """
 
@@ -117,6 +138,7 @@ class PickedPeaks:
     noise: float
     threshold: float
     source: str = ""
+    k: float = 0.0
 
     def __len__(self) -> int:
         return len(self.shifts)
@@ -125,7 +147,20 @@ class PickedPeaks:
         return (
             f"{len(self.shifts)} lines picked from {self.source or 'spectrum'}: "
             f"{self.settings.describe()}; noise {self.noise:.3g}, threshold {self.threshold:.3g}"
+            + (f" ({self.k:.2f} x noise)" if self.k else "")
         )
+
+
+def _normal_quantile_upper(p: float) -> float:
+    """z with P(Z > z) = p for a standard normal Z (bisection on erfc)."""
+    lo, hi = 0.0, 40.0
+    for _ in range(100):
+        mid = 0.5 * (lo + hi)
+        if 0.5 * math.erfc(mid / math.sqrt(2.0)) > p:
+            lo = mid
+        else:
+            hi = mid
+    return 0.5 * (lo + hi)
 
 
 def _baseline(y: np.ndarray, segments: int) -> np.ndarray:
@@ -214,10 +249,12 @@ def pick_peaks(spectrum, settings: PickSettings | None = None, *, both_signs: bo
     r = y - base
     noise = float(np.median(np.abs(r - np.median(r))) * 1.4826)
     tallest = float(np.max(np.abs(r))) if both_signs else float(np.max(r))
-    threshold = max(settings.snr * noise, settings.min_relative_height * max(tallest, 0.0))
+    n_tests = r.size * (2 if both_signs else 1)
+    k = max(settings.snr, _normal_quantile_upper(min(0.5, settings.false_line_rate / n_tests)))
+    threshold = max(k * noise, settings.min_relative_height * max(tallest, 0.0))
     if threshold <= 0:
         threshold = 1e-12 * max(abs(tallest), 1.0)
-    min_prominence = settings.snr * noise
+    min_prominence = k * noise
     cands: list[tuple[float, float]] = []
     signs = (1.0, -1.0) if both_signs else (1.0,)
     idx_all = np.arange(1, r.size - 1)
@@ -243,10 +280,10 @@ def pick_peaks(spectrum, settings: PickSettings | None = None, *, both_signs: bo
     taken: list[float] = []  # sorted positions already chosen
     sep = settings.min_separation_ppm
     for pos, h in cands:
-        k = bisect.bisect_left(taken, pos)
-        if (k < len(taken) and taken[k] - pos < sep) or (k > 0 and pos - taken[k - 1] < sep):
+        at = bisect.bisect_left(taken, pos)
+        if (at < len(taken) and taken[at] - pos < sep) or (at > 0 and pos - taken[at - 1] < sep):
             continue
-        taken.insert(k, pos)
+        taken.insert(at, pos)
         chosen.append((pos, h))
     chosen.sort(key=lambda t: -t[0])
     return PickedPeaks(
@@ -256,6 +293,7 @@ def pick_peaks(spectrum, settings: PickSettings | None = None, *, both_signs: bo
         noise,
         float(threshold),
         spectrum.source,
+        float(k),
     )
 
 
