@@ -365,6 +365,24 @@ def test_read_unreadable_file(tmp_path):
         f.chmod(0o600)
 
 
+def test_read_error_is_reported(tmp_path, monkeypatch):
+    """An OSError while reading (permissions, I/O) becomes an InputError."""
+    import builtins
+
+    f = tmp_path / "peaks.txt"
+    f.write_text("12.5 CH\n", encoding="utf-8")
+    real_open = builtins.open
+
+    def failing_open(path, *args, **kwargs):
+        if str(path) == str(f):
+            raise PermissionError(13, "Permission denied")
+        return real_open(path, *args, **kwargs)
+
+    monkeypatch.setattr(builtins, "open", failing_open)
+    with pytest.raises(InputError, match="cannot read peak file .*Permission denied"):
+        read_peaks(str(f))
+
+
 def test_read_directory_and_empty_file(tmp_path):
     with pytest.raises(InputError, match="is a directory"):
         read_peaks(str(tmp_path))
