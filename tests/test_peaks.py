@@ -424,6 +424,7 @@ def test_roundtrip_text(items):
     text = "\n".join(f"{s} {m} {'' if c is None else c}" for s, m, c in items)
     pl = parse_peaks(text)
     assert triples(pl) == [(float(s), m, c) for s, m, c in items]
+    assert parse_peaks(pl.to_text()) == pl
 
 
 @settings(max_examples=300, deadline=None)

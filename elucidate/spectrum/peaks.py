@@ -208,6 +208,19 @@ class PeakList:
         """A copy with every carbon count removed."""
         return replace(self, peaks=tuple(replace(p, count=None) for p in self.peaks))
 
+    def to_text(self) -> str:
+        """The lines in the plain file syntax (``shift mult [count]`` per line).
+
+        ``parse_peaks(pl.to_text())`` gives the same lines back.
+        """
+        out = []
+        for p in self.peaks:
+            line = f"{float(p.shift)!r} {p.multiplicity}"
+            if p.count is not None:
+                line += f" {p.count}"
+            out.append(line)
+        return "\n".join(out) + "\n"
+
     def to_records(self) -> list[dict]:
         """``[{"shift", "mult", "count"}, ...]`` (``mult`` None when unknown)."""
         return [
