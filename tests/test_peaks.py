@@ -437,3 +437,9 @@ def test_any_text_gives_a_list_or_an_input_error(text):
         assert str(exc) and "\n" not in str(exc)
     else:
         assert pl.n_lines >= 1
+
+
+def test_to_text_keeps_full_precision():
+    pl = PeakList((Peak(123.456789, 1, 2), Peak(-3.6, None), Peak(0.001, 3)))
+    assert pl.to_text() == "123.456789 CH 2\n-3.6 ?\n0.001 CH3\n"
+    assert parse_peaks(pl.to_text()) == pl
