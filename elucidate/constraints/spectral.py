@@ -15,18 +15,17 @@ Three pieces of evidence come from the spectrum before any shift is predicted:
   real spectra break this both ways: inequivalent carbons overlap by accident
   and topologically equivalent carbons split (diastereotopic groups,
   restricted rotation about amide C-N bonds, E/Z isomers).  In 26,288 neutral
-  training spectra of the open nmrshiftdb2 data (<= 22 heavy atoms) 94.7 %
-  have no overlap deficit, 98.6 % at most 2 and 99.6 % at most 4; 92.3 % have
-  no split, 99.7 % at most 2 and 99.9 % at most 3 (measured with
-  ``scripts``-free code in ``docs/constraints.md``).  The default hard
-  allowance (overlap <= 4, split <= 3) therefore drops almost nothing true;
-  within the allowance, ranking uses the frequencies softly
-  (:func:`symmetry_log_prior`).
+  training spectra of the open nmrshiftdb2 data (<= 22 heavy atoms) 95.0 %
+  show no overlap, 99.2 % at most 2 and 99.8 % at most 4; 92.3 % show no
+  split, 99.8 % at most 2 and 99.9 % at most 3 (``scripts/measure_training_stats.py``;
+  figures in ``docs/constraints.md``).  The default hard allowance
+  (overlap <= 4, split <= 3) therefore drops almost nothing true; within the
+  allowance, ranking charges each overlap and split its negative log
+  frequency (:mod:`elucidate.rank.assignment`).
 """
 
 from __future__ import annotations
 
-import math
 from collections import Counter
 from dataclasses import dataclass
 from typing import Sequence
@@ -41,7 +40,6 @@ __all__ = [
     "carbon_classes",
     "symmetry_mismatch",
     "symmetry_filter",
-    "symmetry_log_prior",
 ]
 
 
@@ -176,20 +174,3 @@ def symmetry_filter(peaks: Sequence, allowance: SymmetryAllowance) -> StructureF
     return StructureFilter(
         f"symmetry (overlap <= {allowance.overlap}, split <= {allowance.split})", keep
     )
-
-
-# Frequencies of (overlap, split) in the neutral training spectra (see module
-# docstring); used as a prior in ranking.  Values in percent.
-_OVERLAP_PCT = {0: 95.0, 1: 3.5, 2: 0.7, 3: 0.4, 4: 0.4}
-_SPLIT_PCT = {0: 92.3, 1: 6.4, 2: 1.0, 3: 0.16}
-
-
-def symmetry_log_prior(overlap: int, split: int) -> float:
-    """Natural log of the empirical probability of this (overlap, split).
-
-    >>> round(symmetry_log_prior(0, 0), 2)
-    -0.13
-    """
-    po = _OVERLAP_PCT.get(overlap, 0.05) / 100.0
-    ps = _SPLIT_PCT.get(split, 0.03) / 100.0
-    return math.log(po) + math.log(ps)

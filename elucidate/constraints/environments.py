@@ -1,0 +1,236 @@
+"""Which first-sphere carbon environments occur at which 13C shifts.
+
+A carbon's *first-sphere environment* is its hydrogen count and the list of
+its neighbours (element with charge, the neighbour's hydrogen count, and the
+bond order to it).  The environment decides most of the shift: a carbon
+double-bonded to O with two carbon neighbours (a ketone) sits near 200 ppm,
+a CH2 bonded to O and C near 60-70 ppm.  From the training spectra with
+their recovered assignment (:func:`elucidate.predict.build.iter_assigned_training`)
+we record, for every environment, the range of shifts observed.
+
+During generation each carbon's environment is known as soon as the carbon
+is *closed* (all its bonds fixed), so a structure whose carbon cannot sit
+under any line of matching multiplicity is abandoned early
+(:func:`environment_row_check`).  Two levels are kept:
+
+* level 2: the full key described above;
+* level 1: the same without the neighbours' hydrogen counts.
+
+A carbon is allowed under a line when the deepest known level has a range
+(widened by ``margin`` ppm) that covers the line's shift.  Unseen
+environments are always allowed: the rule only removes what the data
+clearly contradicts.
+
+Kekulé structures: the generator builds aromatic rings as alternating
+single/double bonds, so the table is filled from *every* Kekulé structure
+of each training molecule (RDKit's resonance enumeration), and a carbon's
+key is the same whichever Kekulé form the generator happens to build.
+"""
+
+from __future__ import annotations
+
+import gzip
+import json
+from collections import defaultdict
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Iterable, Sequence
+
+import numpy as np
+from rdkit import Chem
+
+__all__ = [
+    "EnvironmentTable",
+    "environment_keys",
+    "mol_environment_keys",
+    "build_environment_table",
+    "load_environment_table",
+    "environment_row_check_factory",
+    "DEFAULT_TABLE_PATH",
+]
+
+DEFAULT_TABLE_PATH = Path(__file__).resolve().parent.parent / "data" / "environments.json.gz"
+#: Quantiles kept per environment (lower, median, upper).
+_QUANTILES = (0.005, 0.5, 0.995)
+_MIN_COUNT = 3
+
+
+def _label(element: str, charge: int) -> str:
+    return element + ("+" if charge > 0 else "-" if charge < 0 else "")
+
+
+def environment_keys(h: int, neighbours: Sequence[tuple[str, int, int]]) -> tuple[str, str]:
+    """Level-2 and level-1 keys of a carbon.
+
+    ``neighbours`` holds ``(label, neighbour H count, bond order)``.
+
+    >>> environment_keys(2, [("O", 1, 1), ("C", 3, 1)])
+    ('2|C3-1,O1-1', '2|C-1,O-1')
+    """
+    nb = sorted(neighbours)
+    k2 = f"{h}|" + ",".join(f"{lab}{nh}-{o}" for lab, nh, o in nb)
+    k1 = f"{h}|" + ",".join(f"{lab}-{o}" for lab, o in sorted((lab, o) for lab, _, o in nb))
+    return k2, k1
+
+
+def mol_environment_keys(mol: Chem.Mol) -> dict[int, tuple[str, str]]:
+    """Keys of every carbon of a Kekulé-form (or any) molecule, by atom index."""
+    out = {}
+    for atom in mol.GetAtoms():
+        if atom.GetAtomicNum() != 6:
+            continue
+        nbs = []
+        for bond in atom.GetBonds():
+            other = bond.GetOtherAtom(atom)
+            order = int(round(bond.GetBondTypeAsDouble()))
+            nbs.append((_label(other.GetSymbol(), other.GetFormalCharge()), other.GetTotalNumHs(), order))
+        out[atom.GetIdx()] = environment_keys(atom.GetTotalNumHs(), nbs)
+    return out
+
+
+def _kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
+    if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
+        return [mol]
+    forms = []
+    try:
+        supplier = Chem.ResonanceMolSupplier(mol, Chem.ResonanceFlags.KEKULE_ALL)
+        for i, form in enumerate(supplier):
+            if form is None:
+                continue
+            if any(a.GetFormalCharge() != b.GetFormalCharge() for a, b in zip(form.GetAtoms(), mol.GetAtoms())):
+                continue
+            forms.append(form)
+            if i + 1 >= limit:
+                break
+    except (RuntimeError, ValueError):
+        forms = []
+    if not forms:
+        kek = Chem.Mol(mol)
+        try:
+            Chem.Kekulize(kek, clearAromaticFlags=True)
+            forms = [kek]
+        except (RuntimeError, ValueError):
+            forms = [mol]
+    return forms
+
+
+@dataclass(frozen=True)
+class EnvironmentTable:
+    """Shift quantiles per environment key: ``{key: (count, lo, median, hi)}``."""
+
+    stats: dict
+    provenance: dict
+
+    def lookup(self, keys: tuple[str, str]):
+        """Statistics at the deepest level with enough examples, or None."""
+        for k in keys:
+            s = self.stats.get(k)
+            if s is not None and s[0] >= _MIN_COUNT:
+                return s
+        return None
+
+    def save(self, path: Path | str) -> None:
+        with gzip.open(path, "wt", encoding="utf-8") as fh:
+            json.dump({"provenance": self.provenance, "stats": self.stats}, fh, sort_keys=True,
+                      separators=(",", ":"))
+
+
+def build_environment_table(
+    records: Iterable[tuple[str, dict[int, float]]], provenance: dict | None = None
+) -> EnvironmentTable:
+    """Collect shift statistics per environment from assigned training data.
+
+    Parameters
+    ----------
+    records : iterable of (SMILES, {carbon atom index: shift})
+        Atom indices refer to ``Chem.MolFromSmiles(SMILES)``.
+    provenance : dict, optional
+        Stored with the table.
+    """
+    values: dict[str, list[float]] = defaultdict(list)
+    n_mols = 0
+    for smiles, shifts in records:
+        mol = Chem.MolFromSmiles(smiles)
+        if mol is None or not shifts:
+            continue
+        n_mols += 1
+        for form in _kekule_forms(mol):
+            for idx, keys in mol_environment_keys(form).items():
+                if idx in shifts:
+                    for k in set(keys):
+                        values[k].append(shifts[idx])
+    stats = {}
+    for k in sorted(values):
+        v = np.asarray(values[k])
+        lo, med, hi = np.quantile(v, _QUANTILES)
+        stats[k] = [int(len(v)), round(float(lo), 2), round(float(med), 2), round(float(hi), 2)]
+    prov = dict(provenance or {})
+    prov.update({"molecules": n_mols, "environments": len(stats), "quantiles": list(_QUANTILES)})
+    return EnvironmentTable(stats, prov)
+
+
+_CACHE: dict[str, EnvironmentTable] = {}
+
+
+def load_environment_table(path: Path | str | None = None) -> EnvironmentTable | None:
+    """The shipped table (or one at ``path``); None when it is absent."""
+    p = Path(path) if path else DEFAULT_TABLE_PATH
+    key = str(p)
+    if key not in _CACHE:
+        if not p.exists():
+            return None
+        with gzip.open(p, "rt", encoding="utf-8") as fh:
+            obj = json.load(fh)
+        _CACHE[key] = EnvironmentTable(obj["stats"], obj.get("provenance", {}))
+    return _CACHE[key]
+
+
+def environment_row_check_factory(peaks: Sequence, table: EnvironmentTable, margin: float = 4.0):
+    """Make the generator hook that rejects carbons no line can explain.
+
+    Parameters
+    ----------
+    peaks : sequence of Peak
+    table : EnvironmentTable
+    margin : float
+        ppm added on both sides of each environment's observed range.
+
+    Returns
+    -------
+    callable(dist) -> callable(i, matrix) -> bool
+    """
+    by_h: dict[int | None, list[float]] = defaultdict(list)
+    for p in peaks:
+        by_h[p.hydrogens].append(p.shift)
+    unknown = by_h.get(None, [])
+    verdicts: dict[tuple[str, str], bool] = {}
+
+    def allowed(h: int, keys: tuple[str, str]) -> bool:
+        v = verdicts.get(keys)
+        if v is None:
+            s = table.lookup(keys)
+            if s is None:
+                v = True
+            else:
+                lo, hi = s[1] - margin, s[3] + margin
+                shifts = by_h.get(h, []) + unknown
+                v = any(lo <= x <= hi for x in shifts)
+            verdicts[keys] = v
+        return v
+
+    def factory(dist):
+        labels = [_label(t.element, t.charge) for t in dist]
+        hs = [t.hydrogens for t in dist]
+        carbons = [t.element == "C" for t in dist]
+        n = len(dist)
+
+        def check(i: int, m) -> bool:
+            if not carbons[i]:
+                return True
+            row = m[i]
+            nbs = [(labels[j], hs[j], row[j]) for j in range(n) if row[j]]
+            return allowed(hs[i], environment_keys(hs[i], nbs))
+
+        return check
+
+    return factory
