@@ -328,3 +328,37 @@ def test_generator_equals_bruteforce_edge_cases(formula, valences):
         f"{formula} {valences}: missing from generator {sorted(expected - got)[:20]}; "
         f"extra in generator {sorted(got - expected)[:20]}"
     )
+
+
+# The same comparison end to end, through ``elucidate isomers --format json``.
+CLI_CASES = [
+    ("C3H6O", ()),
+    ("C3H5ClO2", ()),
+    ("C2H6OS", ("--valence", "S=2,4,6")),
+    ("C4H4S", ("--valence", "S=2,4,6")),
+    ("C2H7O3P", ("--valence", "P=3,5")),
+]
+
+
+@pytest.mark.parametrize(
+    "formula, args", [pytest.param(f, a, id=f + ("-wide" if a else "")) for f, a in CLI_CASES]
+)
+def test_cli_isomers_list_equals_bruteforce(formula, args):
+    import json
+
+    from click.testing import CliRunner
+
+    cli = pytest.importorskip("elucidate.cli", reason="the CLI module is not there yet")
+    result = CliRunner().invoke(
+        cli.main, ["isomers", "--formula", formula, "--format", "json", *args]
+    )
+    assert result.exit_code == 0, result.output
+    payload = json.loads(result.output)
+    valences = {}
+    if args:
+        el, _, vals = args[1].partition("=")
+        valences[el] = tuple(int(v) for v in vals.split(","))
+    expected = _roundtrip(brute_force_isomers(formula, valences))
+    assert payload["complete"] is True
+    assert payload["count"] == len(payload["isomers"]) == len(expected)
+    assert _roundtrip(payload["isomers"]) == expected
