@@ -171,8 +171,11 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Carbon classes allowed beyond the line count (accidental overlap).")
 @click.option("--max-split", type=click.IntRange(min=0), default=3, show_default=True,
               help="Lines allowed beyond the carbon classes (diastereotopic/rotamer splitting).")
+@click.option("--scaffold", default=None, metavar="SMILES",
+              help="Ring system every candidate must contain, e.g. a starting material's 'c1ccncc1'.")
 def solve(formula, peaks, solvent, time_limit, top, fmt, output, valence, charged_nitrogen, require,
-          forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split):
+          forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
+          scaffold):
     """Rank every structure consistent with a formula and a 13C peak list.
 
     Peaks: one line per signal, 'shift [multiplicity] [count]'; multiplicity
@@ -201,7 +204,7 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, valence, charge
         require=tuple(require), forbid=tuple(forbid), max_rings=max_rings,
         min_ring_size=min_ring_size, max_ring_size=max_ring_size,
         symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
-        time_limit=time_limit, top=top,
+        time_limit=time_limit, top=top, scaffold=scaffold,
     )
     result = run_solve(f, peaks, settings, progress=_progress_printer())
     _clear_progress()
@@ -289,6 +292,95 @@ def bench(cases, mode, limit, time_limit, output):
         _write("".join(json.dumps(r) + "\n" for r in rows), output)
     click.echo(format_bench_table(rows, mode=mode))
 
+
+
+# ----------------------------------------------------------------- check
+@main.command()
+@click.option("--smiles", "-s", required=True, help="The expected structure as SMILES.")
+@click.option("--peaks", "-p", required=True, metavar="FILE|TEXT",
+              help='Peak file, or inline text such as "209.3 C, 36.9 CH2, 29.4 CH3, 7.9 CH3".')
+@click.option("--formula", "-f", default=None,
+              help="Molecular formula from HRMS (default: the expected structure's).")
+@click.option("--solvent", default=None, help="Deuterated solvent whose lines are dropped, e.g. CDCl3.")
+@click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=30.0, show_default=True,
+              help="Seconds for the search among isomers (half for the same scaffold).")
+@click.option("--alternatives", type=click.IntRange(min=0), default=5, show_default=True,
+              help="Largest number of better-fitting isomers listed.")
+@click.option("--no-search", is_flag=True, help="Judge the absolute fit only; skip the isomer search.")
+@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text", show_default=True,
+              help="Output format.")
+@click.option("--output", "-o", default=None, help="Write to this file instead of stdout.")
+def check(smiles, peaks, formula, solvent, time_limit, alternatives, no_search, fmt, output):
+    """Does a 13C spectrum fit the structure you expect?
+
+    Assigns every line to the expected structure, flags gross deviations,
+    unexplained lines and carbons without a line, then searches isomers of
+    the same formula (same scaffold first) for structures that fit clearly
+    better.  Verdict: consistent, doubtful or inconsistent (thresholds in
+    docs/workflows.md).
+
+    Example:
+
+      elucidate check --smiles "CCC(C)=O" --peaks "209.3 C, 36.9 CH2, 29.4 CH3, 7.9 CH3"
+
+    The verdict is a hypothesis: confirm identity with a reference standard.
+    """
+    from .workflows.check import check_structure, check_to_dict, render_check_text
+
+    tty = sys.stderr.isatty()
+    result = check_structure(smiles, peaks, formula=formula, solvent=solvent, time_limit=time_limit,
+                             alternatives=alternatives, search=not no_search,
+                             progress=(lambda m: click.echo(f"  {m}", err=True)) if tty else None)
+    data = check_to_dict(result)
+    text = json.dumps(data, indent=1) + "\n" if fmt == "json" else render_check_text(data)
+    _write(text, output)
+
+
+# ----------------------------------------------------------------- batch
+@main.command()
+@click.argument("samples", type=click.Path(dir_okay=False))
+@click.option("--output", "-o", required=True, metavar="DIR", help="Folder for per-sample results and summary.csv.")
+@click.option("--workers", "-j", type=click.IntRange(min=1), default=1, show_default=True,
+              help="Samples run in parallel processes on this machine.")
+@click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=60.0, show_default=True,
+              help="Seconds per sample (search time of solve or check).")
+@click.option("--top", type=click.IntRange(min=1), default=10, show_default=True,
+              help="Candidates kept per solved sample.")
+@click.option("--force", is_flag=True, help="Re-run samples already done in DIR.")
+@click.option("--html", is_flag=True, help="Also write an HTML report per sample.")
+@click.option("--cluster", default=None, metavar="ADDRESS",
+              help="Dask scheduler address (tcp://host:8786); needs the extra elucidate[cluster].")
+def batch(samples, output, workers, time_limit, top, force, html, cluster):
+    """Solve or check many samples listed in a CSV sheet.
+
+    Header: id,formula,peaks and optionally expected,solvent.  'peaks' is a
+    file path relative to the CSV or quoted inline peak text; a row with
+    'expected' is checked, the others are solved.  Writes DIR/<id>.json per
+    sample and DIR/summary.csv; re-running skips finished samples unless
+    --force.  A malformed row is reported in the summary and does not stop
+    the batch (exit code 1 when any sample failed).
+
+    Example: elucidate batch samples.csv --workers 2 --output results/
+    """
+    from .workflows.batch import BatchOptions, run_batch
+
+    bar = None
+    if sys.stderr.isatty():
+        def bar(done, total, sid, status):
+            width = 30
+            filled = int(width * done / max(total, 1))
+            click.echo(f"\r  [{'#' * filled}{'.' * (width - filled)}] {done}/{total} {sid[:20]:<20} {status:<5}",
+                       err=True, nl=False)
+    report = run_batch(samples, output, workers=workers, force=force, cluster=cluster,
+                       options=BatchOptions(time_limit=time_limit, top=top, html=html), progress=bar)
+    if bar is not None:
+        click.echo("", err=True)
+    click.echo(f"{len(report.rows)} samples: {report.ran} run, {report.skipped} already done, "
+               f"{report.failed} failed; summary in {report.output / 'summary.csv'}")
+    for row in report.rows:
+        if row["status"] != "ok":
+            click.echo(f"  {row['id']}: {row['message']}", err=True)
+    return 1 if report.failed else 0
 
 if __name__ == "__main__":  # pragma: no cover
     main()

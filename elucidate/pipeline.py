@@ -56,6 +56,7 @@ class SolveSettings:
     allow_all: bool = False
     require: tuple[str, ...] = ()
     forbid: tuple[str, ...] = ()
+    scaffold: str | None = None  # SMILES every candidate must contain
     max_rings: int | None = None
     min_ring_size: int | None = None
     max_ring_size: int | None = None
@@ -185,6 +186,10 @@ def solve(
     if not settings.allow_all:
         filters += implausible_motif_filters(only_default=True)
     filters += smarts_filters(settings.require, settings.forbid)
+    if settings.scaffold:
+        from .workflows.scaffold import scaffold_filter
+
+        filters.append(scaffold_filter(settings.scaffold, formula))
     filters += ring_filters(settings.max_rings, settings.min_ring_size, settings.max_ring_size)
     filters.append(symmetry_filter(peaks.peaks, settings.symmetry))
 
