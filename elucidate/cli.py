@@ -161,9 +161,14 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Seconds for the search; partial results are flagged incomplete.")
 @click.option("--top", type=click.IntRange(min=1), default=10, show_default=True,
               help="Number of candidates reported.")
-@click.option("--format", "fmt", type=click.Choice(["text", "json"]), default="text", show_default=True,
-              help="Output format.")
+@click.option("--format", "fmt", type=click.Choice(["text", "json", "html", "sdf"]), default="text",
+              show_default=True, help="Output format (html: one self-contained report file; sdf: candidates "
+              "as molfile records with NMReDATA tags).")
 @click.option("--output", "-o", default=None, help="Write to this file instead of stdout.")
+@click.option("--dept135", default=None, metavar="FILE",
+              help="DEPT-135 spectrum (JCAMP-DX) of the sample; --peaks must then be the 13C spectrum file.")
+@click.option("--dept90", default=None, metavar="FILE",
+              help="DEPT-90 spectrum (JCAMP-DX) of the sample; --peaks must then be the 13C spectrum file.")
 @_structure_options
 @click.option("--allow-all", is_flag=True,
               help="Keep implausible motifs (enols, gem-diols, small-ring triple bonds ...).")
@@ -173,8 +178,8 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Lines allowed beyond the carbon classes (diastereotopic/rotamer splitting).")
 @click.option("--scaffold", default=None, metavar="SMILES",
               help="Ring system every candidate must contain, e.g. a starting material's 'c1ccncc1'.")
-def solve(formula, peaks, solvent, time_limit, top, fmt, output, valence, charged_nitrogen, require,
-          forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
+def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90, valence, charged_nitrogen,
+          require, forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
           scaffold):
     """Rank every structure consistent with a formula and a 13C peak list.
 
@@ -194,7 +199,6 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, valence, charge
     from .generate import WIDE_VALENCES, parse_valence_option
     from .pipeline import SolveSettings, solve as run_solve
     from .report.serialize import result_to_dict
-    from .report.text import render_text
 
     f = _formula(formula)
     valences = dict(WIDE_VALENCES)
@@ -206,11 +210,74 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, valence, charge
         symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
         time_limit=time_limit, top=top, scaffold=scaffold,
     )
+    if dept135 or dept90:
+        from .spectrum.peaks import read_peaks
+
+        peaks = read_peaks(peaks, dept135=dept135, dept90=dept90)
     result = run_solve(f, peaks, settings, progress=_progress_printer())
     _clear_progress()
     data = result_to_dict(result)
-    text = json.dumps(data, indent=1) + "\n" if fmt == "json" else render_text(data)
-    _write(text, output)
+    data.setdefault("peaks_provenance", list(result.peaks.provenance))
+    if result.peaks.observe_mhz:
+        data.setdefault("observe_mhz", result.peaks.observe_mhz)
+    _write(_render(data, fmt), output)
+
+
+def _render(data: dict, fmt: str, top: int | None = None) -> str:
+    if fmt == "json":
+        return json.dumps(data, indent=1) + "\n"
+    if fmt == "html":
+        from .report.html import render_html
+
+        return render_html(data, top=top)
+    if fmt == "sdf":
+        from .report.sdf import render_sdf
+
+        return render_sdf(data, top=top)
+    from .report.text import render_text
+
+    if top:
+        data = dict(data, candidates=data["candidates"][:top])
+    return render_text(data)
+
+
+# ----------------------------------------------------------------- report
+@main.command()
+@click.argument("result_file", metavar="RESULT.json", type=click.Path(dir_okay=False))
+@click.option("--format", "fmt", type=click.Choice(["html", "text", "sdf", "json"]), default="html",
+              show_default=True, help="Output format.")
+@click.option("--top", type=click.IntRange(min=1), default=None, help="Show only the first N candidates.")
+@click.option("--output", "-o", default=None, help="Write to this file instead of stdout.")
+def report(result_file, fmt, top, output):
+    """Re-render a saved result (from 'solve --format json') without solving again.
+
+    Example:
+
+      elucidate report result.json --format html --output report.html
+
+    Results are hypotheses: confirm with reference standards and
+    orthogonal methods.
+    """
+    from .report.html import check_result_data
+
+    try:
+        text = Path(result_file).read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise InputError(f"result file {result_file!r} not found; write one with "
+                         "'elucidate solve ... --format json --output FILE'") from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot read result file {result_file!r}: {exc}") from None
+    try:
+        data = json.loads(text)
+    except json.JSONDecodeError as exc:
+        raise InputError(f"result file {result_file!r} is not JSON ({exc.msg}, line {exc.lineno}); give "
+                         "the file written by 'elucidate solve --format json'") from None
+    check_result_data(data)
+    if fmt == "text":
+        for key, default in (("complete", False), ("elapsed_s", 0.0), ("candidates_generated", 0),
+                             ("peaks", []), ("constraint_log", []), ("warnings", []), ("caution", "")):
+            data.setdefault(key, default)
+    _write(_render(data, fmt, top), output)
 
 
 def _progress_printer():

@@ -1,0 +1,578 @@
+"""Self-contained HTML report of a solve result, printable to PDF.
+
+The report is rendered from the plain-data result only (the dictionary of
+:func:`elucidate.report.serialize.result_to_dict`, or the same dictionary
+read back from a saved JSON file), so ``elucidate report RESULT.json
+--format html`` re-renders a result without solving again.  Nothing here
+recomputes science; the only chemistry done is a 2D depiction of each
+candidate SMILES with RDKit (``rdDepictor.Compute2DCoords`` and
+``rdMolDraw2D.MolDraw2DSVG``).
+
+One file, no network: styles are inline, pictures are inline SVG, and a
+Content-Security-Policy forbids loading anything from elsewhere (and running
+scripts).  A ``@media print`` block keeps each candidate on its own page.
+
+Contents
+--------
+* the cautions (results are hypotheses) at the top and the bottom;
+* inputs echoed: formula, DBE, solvent, observed lines, peak-picking
+  settings when the lines came from a spectrum, search settings;
+* the completeness statement and the constraint log (counts before/after);
+* for each candidate: a 2D depiction with carbon numbers, a stick spectrum
+  (observed lines up, predicted lines down, a connector for each assigned
+  pair, chemical shift decreasing from left to right as usual in NMR), the
+  assignment table and the predicted shift of every carbon.
+
+Atom numbers are 1-based positions in the candidate SMILES as written (the
+JSON's 0-based ``atoms`` plus one), which is also the atom numbering of the
+molfile records written by :mod:`elucidate.report.sdf`.
+
+Colours are from the Okabe & Ito colour-blind-safe palette (Okabe & Ito,
+"Color Universal Design", 2002; from memory): blue #0072B2 for observed
+lines, vermillion #D55E00 for predicted lines; shapes and labels carry the
+same information, so the report also reads in grey print.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+import re
+from typing import Any
+
+from ..errors import InputError
+
+__all__ = ["render_html", "check_result_data", "depiction_svg", "stick_spectrum_svg"]
+
+OBSERVED_COLOUR = "#0072B2"
+PREDICTED_COLOUR = "#D55E00"
+CONNECTOR_COLOUR = "#555555"
+
+_REQUIRED = ("formula", "candidates")
+_DEFAULT_CAUTION = (
+    "Results are hypotheses, not identifications: confirm with reference standards and "
+    "orthogonal methods; forensic and QC decisions follow the lab's accredited procedures."
+)
+
+
+def check_result_data(data: Any) -> dict:
+    """Check that ``data`` looks like a serialised solve result.
+
+    Parameters
+    ----------
+    data : dict
+        Output of :func:`elucidate.report.serialize.result_to_dict` (or the
+        same read from JSON).
+
+    Returns
+    -------
+    dict
+        ``data`` itself.
+
+    Raises
+    ------
+    InputError
+        When keys the renderers need are missing or have the wrong type.
+    """
+    hint = "give the JSON written by 'elucidate solve --format json'"
+    if not isinstance(data, dict):
+        raise InputError(f"result must be a JSON object, got {type(data).__name__}; {hint}")
+    missing = [k for k in _REQUIRED if k not in data]
+    if missing:
+        raise InputError(f"result has no {', '.join(repr(k) for k in missing)}; {hint}")
+    if not isinstance(data["candidates"], list):
+        raise InputError(f"result 'candidates' must be a list; {hint}")
+    for i, cand in enumerate(data["candidates"], 1):
+        if not isinstance(cand, dict) or not isinstance(cand.get("smiles"), str):
+            raise InputError(f"result candidate {i} has no 'smiles' text; {hint}")
+        if not isinstance(cand.get("assignment", []), list):
+            raise InputError(f"result candidate {i}: 'assignment' must be a list; {hint}")
+    return data
+
+
+# ----------------------------------------------------------------- depiction
+def depiction_svg(smiles: str, *, width: int = 340, height: int = 260) -> str:
+    """2D depiction of ``smiles`` as an inline SVG with carbon numbers.
+
+    Coordinates from RDKit's ``Compute2DCoords`` (deterministic); each carbon
+    carries its 1-based position in the SMILES as an atom note.
+
+    Parameters
+    ----------
+    smiles : str
+    width, height : int
+        Size in pixels.
+
+    Returns
+    -------
+    str
+        An ``<svg>`` element (no XML declaration).
+
+    Raises
+    ------
+    InputError
+        When RDKit cannot read ``smiles``.
+    """
+    from rdkit import Chem
+    from rdkit.Chem import rdDepictor
+    from rdkit.Chem.Draw import rdMolDraw2D
+
+    mol = Chem.MolFromSmiles(smiles) if isinstance(smiles, str) else None
+    if mol is None:
+        raise InputError(f"cannot read candidate SMILES {smiles!r}; the result file may be damaged")
+    for atom in mol.GetAtoms():
+        if atom.GetSymbol() == "C":
+            atom.SetProp("atomNote", str(atom.GetIdx() + 1))
+    rdDepictor.Compute2DCoords(mol)
+    drawer = rdMolDraw2D.MolDraw2DSVG(width, height)
+    opts = drawer.drawOptions()
+    opts.annotationFontScale = 0.6
+    opts.annotationColour = (0.0, 0.447, 0.698)  # Okabe-Ito blue, as the observed lines
+    opts.clearBackground = False
+    drawer.DrawMolecule(mol)
+    drawer.FinishDrawing()
+    svg = drawer.GetDrawingText()
+    svg = re.sub(r"<\?xml[^>]*\?>\s*", "", svg)
+    # Accessible name for screen readers; the class lets the print CSS size it.
+    svg = svg.replace(
+        "<svg ",
+        f"<svg role=\"img\" aria-label=\"2D structure of {html.escape(smiles, quote=True)} "
+        "with carbon numbers\" class=\"structure\" ",
+        1,
+    )
+    return svg
+
+
+# ----------------------------------------------------------------- stick spectrum
+def _nice_step(span: float) -> float:
+    raw = span / 8.0
+    mag = 10 ** math.floor(math.log10(raw))
+    for m in (1, 2, 5, 10):
+        if raw <= m * mag:
+            return m * mag
+    return 10 * mag  # pragma: no cover
+
+
+def stick_spectrum_svg(
+    peaks: list[dict],
+    assignment: list[dict],
+    *,
+    width: int = 640,
+    height: int = 250,
+    title: str = "",
+) -> str:
+    """Observed-versus-predicted stick spectrum as an inline SVG.
+
+    Observed lines point up, predicted lines (one per assigned carbon class)
+    point down, and a grey connector joins the two ends of every assigned
+    pair.  The chemical-shift axis decreases from left to right, as NMR
+    spectra are drawn (common practice, no source).  Observed lines without
+    any carbon are drawn dashed and labelled "?".
+
+    Parameters
+    ----------
+    peaks : list of dict
+        Observed lines (``shift``; optional ``mult``).
+    assignment : list of dict
+        Entries with ``peak_index``, ``observed``, ``predicted``, ``atoms``
+        (0-based) and optional ``kind``.
+    width, height : int
+    title : str
+        Accessible title.
+
+    Returns
+    -------
+    str
+        An ``<svg>`` element.
+    """
+    obs = [float(p["shift"]) for p in peaks if p.get("shift") is not None]
+    pred = [float(e["predicted"]) for e in assignment if e.get("predicted") is not None]
+    values = obs + pred or [0.0, 200.0]
+    lo, hi = min(values), max(values)
+    span = max(hi - lo, 10.0)
+    step = _nice_step(span * 1.1)
+    left_ppm = math.ceil((hi + 0.05 * span) / step) * step
+    right_ppm = math.floor((lo - 0.05 * span) / step) * step
+    m_left, m_right = 30.0, 20.0
+    plot_w = width - m_left - m_right
+
+    def x_of(ppm: float) -> float:
+        return m_left + (left_ppm - ppm) / (left_ppm - right_ppm) * plot_w
+
+    top, obs_base, pred_base, bottom = 40.0, 110.0, 150.0, 205.0
+    axis_y = bottom + 8.0
+    parts = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" class="sticks" role="img" width="{width}" '
+        f'height="{height}" viewBox="0 0 {width} {height}" data-left-ppm="{left_ppm:g}" '
+        f'data-right-ppm="{right_ppm:g}">',
+        f"<title>{html.escape(title or 'observed and predicted 13C lines')}</title>",
+        f'<text class="lab" transform="translate(14 {obs_base:.0f}) rotate(-90)" '
+        f'fill="{OBSERVED_COLOUR}">observed</text>',
+        f'<text class="lab" transform="translate(14 {bottom:.0f}) rotate(-90)" '
+        f'fill="{PREDICTED_COLOUR}">predicted</text>',
+        f'<line x1="{m_left}" y1="{obs_base}" x2="{width - m_right}" y2="{obs_base}" stroke="#999" '
+        'stroke-width="0.5"/>',
+        f'<line x1="{m_left}" y1="{pred_base}" x2="{width - m_right}" y2="{pred_base}" stroke="#999" '
+        'stroke-width="0.5"/>',
+    ]
+    # connectors first, so sticks are drawn over them
+    for e in assignment:
+        if e.get("observed") is None or e.get("predicted") is None:
+            continue
+        parts.append(
+            f'<line class="pair" x1="{x_of(float(e["observed"])):.1f}" y1="{obs_base}" '
+            f'x2="{x_of(float(e["predicted"])):.1f}" y2="{pred_base}" stroke="{CONNECTOR_COLOUR}" '
+            'stroke-width="1" stroke-dasharray="3 2"/>'
+        )
+    assigned = {e.get("peak_index") for e in assignment}
+    # crowded labels are stacked on up to three levels
+    level: dict[int, int] = {}
+    last_x = [-1e9, -1e9, -1e9]
+    for i in sorted((i for i, p in enumerate(peaks) if p.get("shift") is not None),
+                    key=lambda i: (-float(peaks[i]["shift"]), i)):
+        x = x_of(float(peaks[i]["shift"]))
+        k = next((k for k in range(3) if x - last_x[k] >= 14), min(range(3), key=lambda k: last_x[k]))
+        level[i] = k
+        last_x[k] = x
+    for i, p in enumerate(peaks):
+        if p.get("shift") is None:
+            continue
+        x = x_of(float(p["shift"]))
+        count = p.get("count") or 1
+        h = (obs_base - top) * min(1.0, 0.55 + 0.15 * count)
+        dash = "" if i in assigned else ' stroke-dasharray="4 3"'
+        label = str(i + 1) if i in assigned else f"{i + 1}?"
+        parts.append(
+            f'<line class="obs" data-ppm="{float(p["shift"]):g}" x1="{x:.1f}" y1="{obs_base}" '
+            f'x2="{x:.1f}" y2="{obs_base - h:.1f}" stroke="{OBSERVED_COLOUR}" stroke-width="2"{dash}>'
+            f"<title>line {i + 1}: {float(p['shift']):.2f} ppm {html.escape(str(p.get('mult') or ''))}"
+            "</title></line>"
+        )
+        parts.append(
+            f'<text class="lab" x="{x:.1f}" y="{obs_base - h - 3 - 10 * level[i]:.1f}" text-anchor="middle" '
+            f'fill="{OBSERVED_COLOUR}">{html.escape(label)}</text>'
+        )
+    seen = set()
+    for e in assignment:
+        atoms = tuple(e.get("atoms") or ())
+        if e.get("predicted") is None or atoms in seen:
+            continue
+        seen.add(atoms)
+        x = x_of(float(e["predicted"]))
+        h = (bottom - pred_base) * min(1.0, 0.55 + 0.15 * max(1, len(atoms)))
+        names = ",".join(f"C{a + 1}" for a in atoms)
+        parts.append(
+            f'<line class="pred" data-ppm="{float(e["predicted"]):g}" x1="{x:.1f}" y1="{pred_base}" '
+            f'x2="{x:.1f}" y2="{pred_base + h:.1f}" stroke="{PREDICTED_COLOUR}" stroke-width="2">'
+            f"<title>{names}: predicted {float(e['predicted']):.2f} ppm</title></line>"
+        )
+    # axis
+    parts.append(
+        f'<line x1="{m_left}" y1="{axis_y}" x2="{width - m_right}" y2="{axis_y}" stroke="#222" '
+        'stroke-width="1"/>'
+    )
+    n_ticks = int(round((left_ppm - right_ppm) / step))
+    for k in range(n_ticks + 1):
+        ppm = left_ppm - k * step
+        x = x_of(ppm)
+        parts.append(
+            f'<line x1="{x:.1f}" y1="{axis_y}" x2="{x:.1f}" y2="{axis_y + 4}" stroke="#222"/>'
+            f'<text class="tick" x="{x:.1f}" y="{axis_y + 16}" text-anchor="middle">{ppm:g}</text>'
+        )
+    parts.append(
+        f'<text class="tick" x="{width - m_right}" y="{axis_y + 32}" text-anchor="end">'
+        "\u03b4 13C / ppm</text>"
+    )
+    parts.append("</svg>")
+    return "".join(parts)
+
+
+# ----------------------------------------------------------------- page
+_CSS = """
+:root { --ink:#1a1a1a; --muted:#555; --rule:#c8c8c8; --obs:%(obs)s; --pred:%(pred)s; --warn:#8a4b00; }
+* { box-sizing: border-box; }
+body { font-family: system-ui, "DejaVu Sans", Arial, sans-serif; color: var(--ink); background:#fff;
+       margin: 0 auto; max-width: 60rem; padding: 1.5rem; line-height: 1.45; font-size: 15px; }
+h1 { font-size: 1.5rem; margin: 0 0 .25rem; }
+h2 { font-size: 1.15rem; border-bottom: 2px solid var(--ink); padding-bottom: .15rem; margin-top: 2rem; }
+h3 { font-size: 1.05rem; margin: 0 0 .4rem; }
+.sub { color: var(--muted); margin: 0 0 1rem; }
+.caution { border: 2px solid var(--warn); background: #fff7ec; padding: .6rem .9rem; margin: 1rem 0; }
+.caution strong { color: var(--warn); }
+.status-ok { font-weight: 600; }
+.status-cut { font-weight: 600; color: var(--warn); }
+table { border-collapse: collapse; margin: .4rem 0 1rem; font-size: .92rem; }
+th, td { border-bottom: 1px solid var(--rule); padding: .2rem .6rem; text-align: left; vertical-align: top; }
+th { background: #f1f1f1; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; }
+dl.facts { display: grid; grid-template-columns: max-content 1fr; gap: .15rem 1rem; margin: .3rem 0 1rem; }
+dl.facts dt { font-weight: 600; }
+dl.facts dd { margin: 0; }
+caption { caption-side: top; text-align: left; font-size: .85rem; color: var(--muted); padding: .2rem 0; }
+td .smiles { white-space: nowrap; }
+code, .smiles { font-family: "DejaVu Sans Mono", Consolas, monospace; overflow-wrap: anywhere; }
+.cand { border-top: 1px solid var(--rule); padding-top: 1rem; margin-top: 1.5rem; }
+.figs { display: flex; flex-wrap: wrap; gap: 1rem; align-items: flex-start; }
+.figs figure { margin: 0; }
+figcaption { font-size: .85rem; color: var(--muted); }
+svg.sticks text.lab { font-size: 10px; }
+svg.sticks text.tick { font-size: 11px; fill: #222; }
+ul.warn li { color: var(--warn); }
+.legend span { display: inline-block; margin-right: 1rem; }
+.key-obs { color: var(--obs); font-weight: 600; }
+.key-pred { color: var(--pred); font-weight: 600; }
+footer { margin-top: 2rem; font-size: .85rem; color: var(--muted); }
+@media print {
+  body { max-width: none; padding: 0; font-size: 10pt; }
+  @page { size: A4; margin: 15mm; }
+  .cand { break-before: page; border-top: none; }
+  table, figure, .caution { break-inside: avoid; }
+  h2, h3 { break-after: avoid; }
+  * { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
+}
+""" % {"obs": OBSERVED_COLOUR, "pred": PREDICTED_COLOUR}
+
+_CSP = "default-src 'none'; style-src 'unsafe-inline'; img-src data:"
+
+
+def _e(x) -> str:
+    return html.escape("" if x is None else str(x))
+
+
+def _f(x, nd: int = 2) -> str:
+    if x is None:
+        return "\u2013"
+    try:
+        return f"{float(x):.{nd}f}"
+    except (TypeError, ValueError):
+        return _e(x)
+
+
+def _table(head: list[str], rows: list[list[str]], num: set[int] = frozenset(), caption: str = "") -> str:
+    out = ["<table>"]
+    if caption:
+        out.append(f"<caption>{caption}</caption>")
+    out.append(
+        "<thead><tr>"
+        + "".join(f'<th scope="col"{" class=num" if i in num else ""}>{h}</th>' for i, h in enumerate(head))
+        + "</tr></thead><tbody>"
+    )
+    for r in rows:
+        out.append("<tr>" + "".join(f'<td{" class=num" if i in num else ""}>{c}</td>'
+                                    for i, c in enumerate(r)) + "</tr>")
+    out.append("</tbody></table>")
+    return "".join(out)
+
+
+def _notes(c: dict) -> str:
+    notes = []
+    if c.get("overlapped_lines"):
+        notes.append(f"{c['overlapped_lines']} line(s) hold more than one carbon class")
+    if c.get("split_classes"):
+        notes.append(f"{c['split_classes']} carbon class(es) split over two lines")
+    if c.get("unfilled_lines"):
+        notes.append(f"{len(c['unfilled_lines'])} line(s) unexplained")
+    if c.get("max_error_ppm") is not None and float(c["max_error_ppm"]) > 10:
+        notes.append("a deviation above 10 ppm")
+    for note in c.get("notes", []) or []:
+        notes.append(str(note))
+    return "; ".join(notes)
+
+
+def _inputs(data: dict) -> str:
+    s = data.get("settings") or {}
+    facts = [
+        ("Molecular formula", _e(data["formula"])),
+        ("DBE (rings + double bonds)", _e(data.get("dbe", "\u2013"))),
+        ("Solvent", _e(s.get("solvent") or "not given (no solvent lines removed)")),
+        ("Observed lines", _e(len(data.get("peaks") or []))),
+    ]
+    if data.get("observe_mhz"):
+        facts.append(("13C observe frequency", f"{float(data['observe_mhz']):g} MHz"))
+    out = ['<dl class="facts">'] + [f"<dt>{k}</dt><dd>{v}</dd>" for k, v in facts] + ["</dl>"]
+    peaks = data.get("peaks") or []
+    if peaks:
+        rows = [[str(i + 1), _f(p.get("shift")), _e(p.get("mult") or "?"), _e(p.get("count") or "")]
+                for i, p in enumerate(peaks)]
+        out.append(_table(["line", "shift / ppm", "multiplicity", "carbons"], rows, {0, 1, 3},
+                          "Observed 13C lines used for the search (after solvent removal)"))
+    prov = data.get("peaks_provenance") or []
+    if prov:
+        out.append("<h3>Peak picking (from the spectrum files)</h3><ul>")
+        out += [f"<li>{_e(p)}</li>" for p in prov]
+        out.append("</ul>")
+    if s:
+        rows = []
+        for key in sorted(s):
+            val = s[key]
+            if key == "valences" and isinstance(val, dict):
+                val = " ".join(f"{el}{'/'.join(str(v) for v in vs)}" for el, vs in val.items())
+            elif isinstance(val, list):
+                val = ", ".join(str(v) for v in val) or "none"
+            elif val is None:
+                val = "no limit"
+            rows.append([f"<code>{_e(key)}</code>", _e(val)])
+        out.append(_table(["setting", "value"], rows, caption="Search settings and structural constraints"))
+    return "".join(out)
+
+
+def _search(data: dict) -> str:
+    out = []
+    complete = data.get("complete")
+    if complete is True:
+        out.append('<p class="status-ok">The search was exhaustive under the stated constraints: every '
+                   "constitution consistent with them was generated and ranked.</p>")
+    elif complete is False:
+        out.append('<p class="status-cut">The search was cut short (time limit): structures may be missing '
+                   "from this list, and probabilities are relative to the structures found.</p>")
+    else:
+        out.append('<p class="status-cut">Completeness of the search is not recorded in this result.</p>')
+    facts = []
+    if data.get("candidates_generated") is not None:
+        facts.append(("Structures ranked", _e(f"{data['candidates_generated']:,}")))
+    if data.get("elapsed_s") is not None:
+        facts.append(("Search time", f"{_f(data['elapsed_s'], 1)} s"))
+    facts.append(("Candidates shown", _e(len(data["candidates"]))))
+    out += ['<dl class="facts">'] + [f"<dt>{k}</dt><dd>{v}</dd>" for k, v in facts] + ["</dl>"]
+    log = data.get("constraint_log") or []
+    if log:
+        rows = [[_e(r.get("constraint")), _e(f"{r.get('before', 0):,}"), _e(f"{r.get('after', 0):,}")]
+                for r in log]
+        out.append(_table(["constraint", "before", "after"], rows, {1, 2},
+                          "Constraint log: counts before and after each constraint"))
+    warnings = data.get("warnings") or []
+    if warnings:
+        out.append('<h3>Warnings</h3><ul class="warn">' + "".join(f"<li>{_e(w)}</li>" for w in warnings)
+                   + "</ul>")
+    return "".join(out)
+
+
+def _summary(cands: list[dict]) -> str:
+    rows = []
+    for c in cands:
+        rows.append([
+            f'<a href="#cand-{_e(c.get("rank"))}">{_e(c.get("rank"))}</a>',
+            f'<span class="smiles">{_e(c["smiles"])}</span>',
+            _f(c.get("probability"), 3), _f(c.get("mae_ppm")), _f(c.get("max_error_ppm")), _e(_notes(c)),
+        ])
+    return _table(["rank", "SMILES", "probability", "MAE / ppm", "max / ppm", "notes"], rows, {0, 2, 3, 4},
+                  "Ranked candidates (probabilities are relative to the listed structures)")
+
+
+def _candidate(c: dict, peaks: list[dict]) -> str:
+    rank = _e(c.get("rank"))
+    assignment = c.get("assignment") or []
+    out = [f'<section class="cand" id="cand-{rank}"><h3>Candidate {rank}: '
+           f'<span class="smiles">{_e(c["smiles"])}</span></h3>']
+    facts = [("probability", _f(c.get("probability"), 3)), ("score", _f(c.get("score"), 3)),
+             ("MAE", _f(c.get("mae_ppm")) + " ppm"), ("max deviation", _f(c.get("max_error_ppm")) + " ppm")]
+    out.append("<p>" + " &middot; ".join(f"{k} <strong>{v}</strong>" for k, v in facts) + "</p>")
+    notes = _notes(c)
+    if notes:
+        out.append(f'<p class="status-cut">Note: {_e(notes)}.</p>')
+    out.append('<div class="figs"><figure>')
+    out.append(depiction_svg(c["smiles"]))
+    out.append("<figcaption>Structure; carbons numbered by their position in the SMILES.</figcaption>"
+               "</figure><figure>")
+    out.append(stick_spectrum_svg(peaks, assignment, title=f"candidate {c.get('rank')}: observed and "
+                                  "predicted 13C lines"))
+    out.append('<figcaption class="legend"><span class="key-obs">&#9650; observed lines (numbers = line)</span>'
+               '<span class="key-pred">&#9660; predicted classes</span>'
+               "<span>dashed grey: assigned pairs</span></figcaption></figure></div>")
+    rows = []
+    for e in sorted(assignment, key=lambda e: (e.get("peak_index", 0), tuple(e.get("atoms") or ()))):
+        obs, prd = e.get("observed"), e.get("predicted")
+        diff = (float(prd) - float(obs)) if obs is not None and prd is not None else None
+        rows.append([
+            _e((e.get("peak_index") or 0) + 1), _f(obs), _f(prd),
+            ("\u2013" if diff is None else f"{diff:+.2f}"),
+            _e(", ".join(f"C{a + 1}" for a in e.get("atoms") or [])),
+            _e("" if e.get("kind") in (None, "primary") else e["kind"]),
+        ])
+    for i in c.get("unfilled_lines") or []:
+        shift = peaks[i].get("shift") if 0 <= i < len(peaks) else None
+        rows.append([_e(i + 1), _f(shift), "\u2013", "\u2013", "none", "unexplained line"])
+    out.append(_table(["line", "observed / ppm", "predicted / ppm", "diff / ppm", "carbons", "note"], rows,
+                      {0, 1, 2, 3}, f"Assignment of the observed lines to the carbons of candidate {rank}"))
+    preds = c.get("predicted_shifts") or []
+    if preds:
+        rows = [[f"C{p['atom'] + 1}", _e(p.get("hydrogens")), _f(p.get("shift")), _f(p.get("sigma"))]
+                for p in preds]
+        out.append(_table(["carbon", "H", "predicted / ppm", "\u00b1 / ppm"], rows, {1, 2, 3},
+                          "Predicted shift and its uncertainty for every carbon"))
+    out.append("</section>")
+    return "".join(out)
+
+
+def render_html(data: dict, *, top: int | None = None, title: str | None = None) -> str:
+    """Render the plain-data result as one self-contained HTML page.
+
+    Parameters
+    ----------
+    data : dict
+        A serialised solve result (see :mod:`elucidate.report.serialize`);
+        optional keys are shown when present (``peaks_provenance``,
+        ``observe_mhz``, ``settings``, ``warnings`` ...).
+    top : int, optional
+        Show only the first ``top`` candidates (default: all in ``data``).
+    title : str, optional
+        Page title (default names the formula).
+
+    Returns
+    -------
+    str
+        The HTML document (UTF-8 text), identical for identical input.
+
+    Raises
+    ------
+    InputError
+        When ``data`` is not a solve result or ``top`` is not a positive
+        integer.
+    """
+    check_result_data(data)
+    if top is not None and (isinstance(top, bool) or not isinstance(top, int) or top < 1):
+        raise InputError(f"top must be a positive integer, got {top!r}")
+    cands = data["candidates"][:top] if top else list(data["candidates"])
+    peaks = data.get("peaks") or []
+    caution = data.get("caution") or _DEFAULT_CAUTION
+    title = title or f"elucidate report: {data['formula']}"
+    from .. import __version__
+
+    body = [
+        f"<h1>{_e(title)}</h1>",
+        f'<p class="sub">Candidate structures for {_e(data["formula"])} from its 13C NMR lines: '
+        "hypotheses for a chemist to test, not identifications.</p>",
+        f'<div class="caution" role="note"><strong>Caution.</strong> {_e(caution)}</div>',
+        "<h2>Ranked candidates</h2>",
+        _summary(cands) if cands else "<p>No structure fits these data and constraints.</p>",
+        "<h2>Inputs</h2>",
+        _inputs(data),
+        "<h2>Search</h2>",
+        _search(data),
+    ]
+    if cands:
+        body.append("<h2>Candidates in detail</h2>")
+        body.append("<p>Atom numbers are 1-based positions in each SMILES as written (the molfile "
+                    "numbering of the SDF export). The stick spectra run from high to low chemical shift.</p>")
+        body += [_candidate(c, peaks) for c in cands]
+    body.append(
+        '<h2>Before acting on this report</h2><div class="caution" role="note"><ul>'
+        "<li>These are hypotheses ranked by agreement between predicted and observed 13C shifts, "
+        "not identifications. A top rank means the structure fits best among those searched.</li>"
+        "<li>Confirm with a reference standard and orthogonal methods (MS/MS, 1H and 2D NMR, IR, "
+        "chromatographic co-injection).</li>"
+        "<li>Forensic and QC decisions follow the laboratory's accredited procedures and local "
+        "regulations, never this report alone.</li>"
+        "<li>An incomplete search may miss the right structure; probabilities are relative to the "
+        "listed candidates only.</li></ul></div>"
+    )
+    body.append(f"<footer>Rendered by elucidate {_e(__version__)} from the saved result data; "
+                "structure pictures drawn with RDKit.</footer>")
+    return (
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+        f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        f"<title>{_e(title)}</title><style>{_CSS}</style></head>\n<body>\n"
+        + "\n".join(body)
+        + "\n</body></html>\n"
+    )

@@ -1,0 +1,133 @@
+"""The whole path from instrument files to a filed report, through the CLI.
+
+Scenario ``scenarios/kestrel-coatings-jcamp`` (invented): synthetic
+JCAMP-DX 13C, DEPT-135 and DEPT-90 spectra of 4-methylpentan-2-one (CDCl3
+shifts from memory of standard 13C tables, listed in its make_spectra.py)
+-> ``elucidate solve`` -> JSON -> ``elucidate report`` -> HTML/SDF/text.
+"""
+
+import importlib.util
+import json
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+from rdkit import Chem
+
+from elucidate.cli import main
+from elucidate.spectrum.peaks import read_peaks
+
+ROOT = Path(__file__).resolve().parents[1]
+SCENARIO = ROOT / "scenarios" / "kestrel-coatings-jcamp"
+META = json.loads((SCENARIO / "scenario.json").read_text())
+
+
+def _maker():
+    spec = importlib.util.spec_from_file_location("make_spectra", SCENARIO / "make_spectra.py")
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    return mod
+
+
+def _canon(smi):
+    return Chem.MolToSmiles(Chem.MolFromSmiles(smi))
+
+
+@pytest.fixture(scope="module")
+def solved(tmp_path_factory):
+    tmp = tmp_path_factory.mktemp("kestrel")
+    out = tmp / "result.json"
+    args = ["solve", "--formula", META["formula"], "--peaks", str(SCENARIO / META["peaks"]),
+            "--dept135", str(SCENARIO / META["dept135"]), "--dept90", str(SCENARIO / META["dept90"]),
+            "--solvent", META["solvent"], "--format", "json", "--output", str(out), "--top", "5"]
+    result = CliRunner().invoke(main, args)
+    assert result.exit_code == 0, result.output
+    return tmp, out, json.loads(out.read_text())
+
+
+def test_committed_spectra_are_what_the_script_writes(tmp_path):
+    paths = _maker().main(tmp_path)
+    for key in ("c13", "dept135", "dept90"):
+        committed = SCENARIO / META["peaks" if key == "c13" else key]
+        assert paths[key].name == committed.name
+        assert paths[key].read_bytes() == committed.read_bytes()
+
+
+def test_picked_lines_and_multiplicities_match_the_table():
+    # Shifts/H counts the spectra were made from (from memory, see make_spectra.py).
+    carbons = sorted(set(_maker().CARBONS), reverse=True)
+    peaks = read_peaks(str(SCENARIO / META["peaks"]), dept135=str(SCENARIO / META["dept135"]),
+                       dept90=str(SCENARIO / META["dept90"]))
+    sample = [p for p in peaks if not 76.0 < p.shift < 78.0]  # CDCl3 triplet at 77.16 (Fulmer 2010)
+    assert len(sample) == len(carbons)
+    for p, (shift, h) in zip(sample, carbons):
+        assert abs(p.shift - shift) <= 0.1
+        assert p.hydrogens == h
+    assert any("DEPT-135" in line for line in peaks.provenance)
+
+
+def test_scenario_solves_to_the_confirmed_structure(solved):
+    _, _, data = solved
+    assert data["complete"] is True
+    smiles = [c["smiles"] for c in data["candidates"]]
+    assert _canon(META["confirmed"]) in smiles[:3]
+    assert data["observe_mhz"] == pytest.approx(100.6)
+    assert any("picked" in line for line in data["peaks_provenance"])
+
+
+def test_report_rerenders_html_without_solving(solved):
+    tmp, out, data = solved
+    page = tmp / "report.html"
+    result = CliRunner().invoke(main, ["report", str(out), "--format", "html", "--output", str(page)])
+    assert result.exit_code == 0, result.output
+    html = page.read_text(encoding="utf-8")
+    assert html.startswith("<!DOCTYPE html>")
+    assert "DEPT-135" in html and "minimum separation" in html  # picking settings echoed
+    assert "100.6 MHz" in html
+    for cand in data["candidates"]:
+        assert cand["smiles"] in html
+    # same bytes again: rendering is deterministic and reads only the JSON
+    again = CliRunner().invoke(main, ["report", str(out), "--format", "html"])
+    assert again.stdout == html
+
+
+def test_report_sdf_and_text(solved, tmp_path):
+    _, out, data = solved
+    sdf = tmp_path / "c.sdf"
+    result = CliRunner().invoke(main, ["report", str(out), "--format", "sdf", "-o", str(sdf), "--top", "2"])
+    assert result.exit_code == 0, result.output
+    mols = list(Chem.SDMolSupplier(str(sdf)))
+    assert [Chem.MolToSmiles(m) for m in mols] == [_canon(c["smiles"]) for c in data["candidates"][:2]]
+    text = CliRunner().invoke(main, ["report", str(out), "--format", "text"])
+    assert text.exit_code == 0
+    assert data["candidates"][0]["smiles"] in text.stdout and "hypotheses" in text.stdout
+
+
+def test_solve_writes_html_and_sdf_to_stdout():
+    # ethyl acetate, CDCl3 (Fulmer et al., Organometallics 2010, 29, 2176; from memory)
+    base = ["solve", "-f", "C4H8O2", "-p", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3", "--top", "2"]
+    html = CliRunner().invoke(main, base + ["--format", "html"])
+    assert html.exit_code == 0 and html.stdout.startswith("<!DOCTYPE html>")
+    sdf = CliRunner().invoke(main, base + ["--format", "sdf"])
+    assert sdf.exit_code == 0 and sdf.stdout.count("$$$$") == 2
+
+
+@pytest.mark.parametrize("content, message", [
+    (None, "not found"),
+    ("{not json", "is not JSON"),
+    ('{"formula": "C4H8O2"}', "has no 'candidates'"),
+])
+def test_report_input_errors(tmp_path, content, message):
+    path = tmp_path / "r.json"
+    if content is not None:
+        path.write_text(content)
+    result = CliRunner().invoke(main, ["report", str(path)])
+    assert result.exit_code == 2
+    assert result.stderr.startswith("error: ") and message in result.stderr
+    assert "Traceback" not in result.output
+
+
+def test_dept_needs_a_spectrum_file():
+    result = CliRunner().invoke(main, ["solve", "-f", "C4H8O2", "-p", "171.1, 60.5, 21.0, 14.2",
+                                       "--dept135", str(SCENARIO / META["dept135"])])
+    assert result.exit_code == 2 and "DEPT spectra were given" in result.stderr
