@@ -22,6 +22,10 @@ Conventions (shared with the real generator)
   and identified by ``Chem.MolToSmiles`` (canonical, aromatic form, so Kekulé
   forms of one aromatic structure coincide).
 
+Optionally (``charged_nitrogen=True``) charge-separated N+/O- pairs as in
+nitro groups and N-oxides are built too, under the generator's documented
+rules (see :func:`brute_force_isomers`).
+
 Method
 ------
 Search space.  A *state* is a connected multigraph on a sub-multiset of the
@@ -225,14 +229,21 @@ def _h_of(b: int, allowed: tuple[int, ...]) -> int | None:
     return None
 
 
-def _to_smiles(elems: list[str], adj: list[list[int]], hs: list[int]) -> str | None:
+#: Charge-separated nitrogen (optional): labels used inside the search.
+_N_PLUS, _O_MINUS = "N+", "O-"
+_LABEL_ATOM = {_N_PLUS: ("N", 1), _O_MINUS: ("O", -1)}
+
+
+def _to_smiles(labels: list[str], adj: list[list[int]], hs: list[int]) -> str | None:
     mol = Chem.RWMol()
-    for e, h in zip(elems, hs):
-        atom = Chem.Atom(e)
+    for label, h in zip(labels, hs):
+        element, charge = _LABEL_ATOM.get(label, (label, 0))
+        atom = Chem.Atom(element)
+        atom.SetFormalCharge(charge)
         atom.SetNoImplicit(True)
         atom.SetNumExplicitHs(h)
         mol.AddAtom(atom)
-    n = len(elems)
+    n = len(labels)
     for i in range(n):
         for j in range(i + 1, n):
             if adj[i][j]:
@@ -244,10 +255,126 @@ def _to_smiles(elems: list[str], adj: list[list[int]], hs: list[int]) -> str | N
     return Chem.MolToSmiles(mol)
 
 
+def _bond_allowed(a: str, b: str) -> bool:
+    """O- binds only to N+; two N+ never bind (charge-separated pairs)."""
+    if a == _O_MINUS or b == _O_MINUS:
+        return {a, b} == {_N_PLUS, _O_MINUS}
+    return not (a == _N_PLUS and b == _N_PLUS)
+
+
+def _final_ok(labels: list[str], adj: list[list[int]]) -> bool:
+    """Every N+ has an O- neighbour."""
+    n = len(labels)
+    return all(
+        any(labels[u] == _O_MINUS and adj[v][u] for u in range(n))
+        for v in range(n)
+        if labels[v] == _N_PLUS
+    )
+
+
+def _grow(
+    counts: dict[str, int],
+    n_h: int,
+    table: dict[str, tuple[int, ...]],
+    max_states: int | None,
+    formula: str,
+) -> set[str]:
+    """The growth search of the module docstring for one multiset of labels.
+
+    ``counts`` maps atom labels (element symbols, or ``"N+"``/``"O-"`` for
+    charge-separated atoms, which carry no H) to how many there are.
+    """
+    pool = sorted(counts)  # labels, fixed order for determinism
+    total = sum(counts.values())
+    low = {e: table[e][0] for e in pool}
+    high = {e: table[e][-1] for e in pool}
+    # the most H an atom of each label can carry (charged atoms carry none)
+    hcap = {e: 0 if e in _LABEL_ATOM else low[e] for e in pool}
+    results: set[str] = set()
+    if total == 0:
+        return results
+
+    def viable(el: list[str], bs: list[int], rem: dict[str, int]) -> bool:
+        if any(b > high[e] for e, b in zip(el, bs)):
+            return False
+        ub = sum(min(hcap[e], max(0, low[e] - b)) for e, b in zip(el, bs))
+        ub += sum(k * min(hcap[e], low[e] - 1) for e, k in rem.items())
+        return ub >= n_h
+
+    seen: set = set()
+    stack: list[tuple[list[str], list[list[int]]]] = []
+    for e in pool:
+        elems0, adj0 = [e], [[0]]
+        seen.add(canonical_form(elems0, adj0))
+        stack.append((elems0, adj0))
+
+    while stack:
+        elems, adj = stack.pop()
+        n = len(elems)
+        bsum = [sum(row) for row in adj]
+
+        if n == total:
+            hs = [_h_of(b, table[e]) for e, b in zip(elems, bsum)]
+            if (
+                None not in hs
+                and sum(hs) == n_h
+                and all(h == 0 for e, h in zip(elems, hs) if e in _LABEL_ATOM)
+                and _final_ok(elems, adj)
+            ):
+                smi = _to_smiles(elems, adj, hs)
+                if smi is not None:
+                    results.add(smi)
+
+        remaining = dict(counts)
+        for e in elems:
+            remaining[e] -= 1
+
+        children = []
+        # (a) attach a new atom with a single bond
+        for e in pool:
+            if remaining[e] == 0:
+                continue
+            rem2 = dict(remaining)
+            rem2[e] -= 1
+            for i in range(n):
+                if not _bond_allowed(elems[i], e):
+                    continue
+                new_adj = [row + [0] for row in adj] + [[0] * (n + 1)]
+                new_adj[i][n] = new_adj[n][i] = 1
+                new_el = elems + [e]
+                new_b = bsum + [1]
+                new_b[i] += 1
+                if viable(new_el, new_b, rem2):
+                    children.append((new_el, new_adj))
+        # (b) raise one bond order by one (0 -> 1 closes a ring); only
+        # once every atom is placed (see "Search space" in the docstring)
+        for i, j in combinations(range(n) if n == total else (), 2):
+            if adj[i][j] >= 3 or not _bond_allowed(elems[i], elems[j]):
+                continue
+            new_adj = [row[:] for row in adj]
+            new_adj[i][j] += 1
+            new_adj[j][i] += 1
+            new_b = bsum[:]
+            new_b[i] += 1
+            new_b[j] += 1
+            if viable(elems, new_b, remaining):
+                children.append((elems, new_adj))
+
+        for child in children:
+            key = canonical_form(*child)
+            if key not in seen:
+                seen.add(key)
+                stack.append(child)
+        if max_states is not None and len(seen) > max_states:
+            raise SearchBudgetExceeded(f"{formula}: more than {max_states} partial graphs")
+    return results
+
+
 def brute_force_isomers(
     formula: str,
     valences: dict[str, tuple[int, ...]] | None = None,
     max_states: int | None = None,
+    charged_nitrogen: bool = False,
 ) -> set[str]:
     """All constitutional isomers of ``formula`` as RDKit canonical SMILES.
 
@@ -261,8 +388,15 @@ def brute_force_isomers(
         sorted; its smallest value is the only one that may carry H.
     max_states : int, optional
         Give up (raise :class:`SearchBudgetExceeded`) once more than this
-        many distinct partial graphs have been stored.  The count is
-        deterministic, so a budget selects the same formulas on every run.
+        many distinct partial graphs have been stored (per charge pattern).
+        The count is deterministic, so a budget selects the same formulas on
+        every run.
+    charged_nitrogen : bool
+        Also allow charge-separated pairs as in nitro groups and N-oxides:
+        for k = 1 .. min(#N, #O), k atoms N+ (valence 4) and k atoms O-
+        (valence 1), neither carrying H, where O- binds only to N+, two N+
+        never bind, and every N+ has an O- neighbour (the generator's
+        documented convention).
 
     Returns
     -------
@@ -271,7 +405,10 @@ def brute_force_isomers(
 
     Notes
     -----
-    Method and correctness argument: see the module docstring.
+    Method and correctness argument: see the module docstring.  The charge
+    rules are all monotone under the growth steps (bonds are never removed)
+    except "every N+ has an O- neighbour", which is checked on complete
+    structures only, so completeness is unaffected.
     """
     counts = parse_counts(formula)
     n_h = counts.pop("H", 0)
@@ -281,87 +418,22 @@ def brute_force_isomers(
     for e in counts:
         if e not in table:
             raise ValueError(f"no valence known for element {e!r}")
-    pool = sorted(counts)  # elements, fixed order for determinism
-    total = sum(counts.values())
-    low = {e: table[e][0] for e in pool}
-    high = {e: table[e][-1] for e in pool}
+    table[_N_PLUS], table[_O_MINUS] = (4,), (1,)
 
+    pairs = min(counts.get("N", 0), counts.get("O", 0)) if charged_nitrogen else 0
     rd_log = RDLogger.logger()
     rd_log.setLevel(RDLogger.CRITICAL)
     results: set[str] = set()
     try:
-        if total == 0:
-            return results
-        seen: set = set()
-        stack: list[tuple[list[str], list[list[int]]]] = []
-        for e in pool:
-            elems0, adj0 = [e], [[0]]
-            key = canonical_form(elems0, adj0)
-            if key not in seen:
-                seen.add(key)
-                stack.append((elems0, adj0))
-
-        while stack:
-            elems, adj = stack.pop()
-            n = len(elems)
-            bsum = [sum(row) for row in adj]
-
-            if n == total:
-                hs = [_h_of(b, table[e]) for e, b in zip(elems, bsum)]
-                if None not in hs and sum(hs) == n_h:
-                    smi = _to_smiles(elems, adj, hs)
-                    if smi is not None:
-                        results.add(smi)
-
-            remaining = dict(counts)
-            for e in elems:
-                remaining[e] -= 1
-
-            def viable(el: list[str], bs: list[int], rem: dict[str, int]) -> bool:
-                if any(b > high[e] for e, b in zip(el, bs)):
-                    return False
-                ub = sum(max(0, low[e] - b) for e, b in zip(el, bs))
-                ub += sum(k * (low[e] - 1) for e, k in rem.items())
-                return ub >= n_h
-
-            children = []
-            # (a) attach a new atom with a single bond
-            for e in pool:
-                if remaining[e] == 0:
-                    continue
-                rem2 = dict(remaining)
-                rem2[e] -= 1
-                for i in range(n):
-                    new_adj = [row + [0] for row in adj] + [[0] * (n + 1)]
-                    new_adj[i][n] = new_adj[n][i] = 1
-                    new_el = elems + [e]
-                    new_b = bsum + [1]
-                    new_b[i] += 1
-                    if viable(new_el, new_b, rem2):
-                        children.append((new_el, new_adj))
-            # (b) raise one bond order by one (0 -> 1 closes a ring); only
-            # once every atom is placed (see "Search space" in the docstring)
-            for i, j in combinations(range(n) if n == total else (), 2):
-                if adj[i][j] >= 3:
-                    continue
-                new_adj = [row[:] for row in adj]
-                new_adj[i][j] += 1
-                new_adj[j][i] += 1
-                new_b = bsum[:]
-                new_b[i] += 1
-                new_b[j] += 1
-                if viable(elems, new_b, remaining):
-                    children.append((elems, new_adj))
-
-            for child in children:
-                key = canonical_form(*child)
-                if key not in seen:
-                    seen.add(key)
-                    stack.append(child)
-            if max_states is not None and len(seen) > max_states:
-                raise SearchBudgetExceeded(
-                    f"{formula}: more than {max_states} partial graphs"
-                )
+        for k in range(pairs + 1):
+            labelled = dict(counts)
+            if k:
+                labelled["N"] -= k
+                labelled["O"] -= k
+                labelled[_N_PLUS] = k
+                labelled[_O_MINUS] = k
+            labelled = {e: c for e, c in labelled.items() if c > 0}
+            results |= _grow(labelled, n_h, table, max_states, formula)
     finally:
         rd_log.setLevel(RDLogger.WARNING)
     return results

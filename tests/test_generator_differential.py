@@ -251,7 +251,9 @@ def test_random_cases_cover_the_brief():
 # ---------------------------------------------------------------------------
 
 
-def _generator_list(formula: str, wide: bool, extra_valences=None) -> list[str]:
+def _generator_list(
+    formula: str, wide: bool, extra_valences=None, charged_nitrogen: bool = False
+) -> list[str]:
     generate = pytest.importorskip("elucidate.generate")
     if not hasattr(generate, "enumerate_isomers"):
         pytest.skip("elucidate.generate.enumerate_isomers is not there yet")
@@ -263,7 +265,8 @@ def _generator_list(formula: str, wide: bool, extra_valences=None) -> list[str]:
         table.update(WIDE_S)
     table.update(extra_valences or {})
     out = []
-    run = generate.enumerate_isomers(parsed, valences=table)
+    kwargs = {"charged_nitrogen": True} if charged_nitrogen else {}
+    run = generate.enumerate_isomers(parsed, valences=table, **kwargs)
     for item in run:
         smiles = getattr(item, "smiles", item)  # Structure objects or plain strings
         mol = Chem.MolFromSmiles(smiles)
@@ -328,6 +331,41 @@ def test_generator_equals_bruteforce_edge_cases(formula, valences):
         f"{formula} {valences}: missing from generator {sorted(expected - got)[:20]}; "
         f"extra in generator {sorted(got - expected)[:20]}"
     )
+
+
+# Charge-separated N+/O- pairs (nitro groups, N-oxides), optional in both.
+CHARGED_CASES = ["CH3NO2", "CHNO", "C2H5NO2", "CH4N2O2", "C3H3NO", "CH3NO3"]
+
+
+@pytest.mark.parametrize("formula", CHARGED_CASES)
+def test_generator_equals_bruteforce_charged_nitrogen(formula):
+    expected = _roundtrip(brute_force_isomers(formula, charged_nitrogen=True))
+    got_list = _generator_list(formula, False, charged_nitrogen=True)
+    got = set(got_list)
+    assert len(got_list) == len(got), f"{formula}: a structure listed more than once"
+    assert got == expected, (
+        f"{formula} (charged N): missing from generator {sorted(expected - got)[:20]}; "
+        f"extra in generator {sorted(got - expected)[:20]}"
+    )
+
+
+def test_oracle_charged_nitrogen_adds_nitro_groups():
+    # Nitromethane is C[N+](=O)[O-] in RDKit's charge-separated form, and
+    # only appears with the option (common practice, no source).
+    nitro = Chem.MolToSmiles(Chem.MolFromSmiles("C[N+](=O)[O-]"))
+    neutral = brute_force_isomers("CH3NO2")
+    charged = brute_force_isomers("CH3NO2", charged_nitrogen=True)
+    assert nitro in charged and nitro not in neutral
+    assert neutral < charged
+    # no charged atom without its partner, no H on N+
+    for smi in charged - neutral:
+        mol = Chem.MolFromSmiles(smi)
+        assert Chem.GetFormalCharge(mol) == 0
+        for atom in mol.GetAtoms():
+            if atom.GetFormalCharge() == 1:
+                assert atom.GetSymbol() == "N" and atom.GetTotalNumHs() == 0
+            if atom.GetFormalCharge() == -1:
+                assert atom.GetSymbol() == "O" and atom.GetNeighbors()[0].GetFormalCharge() == 1
 
 
 # The same comparison end to end, through ``elucidate isomers --format json``.
