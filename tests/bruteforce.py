@@ -33,11 +33,14 @@ formula's heavy atoms.  Its successors are obtained by one elementary step:
 
 (a) attach one not-yet-placed heavy atom by a single bond to a placed atom;
 (b) raise the order of one pair of placed atoms by one (0 -> 1 closes a ring,
-    1 -> 2, 2 -> 3).
+    1 -> 2, 2 -> 3) -- only once every atom is placed.
+
+The search starts from every one-atom graph and de-duplicates (see below).
 
 Completeness.  Let ``G`` be any valid final structure.  Build a spanning tree
-of ``G`` by steps (a) in breadth-first order, then add its remaining bonds
-and bond orders by steps (b).  Every intermediate graph is a subgraph of
+of ``G`` by steps (a) in breadth-first order from any atom (the tree uses
+every atom, so steps (b) become available exactly when it is complete), then
+add the remaining bonds and bond orders of ``G`` by steps (b).  Every intermediate graph is a subgraph of
 ``G`` (each pair's order is at most its order in ``G``), so it passes both
 pruning rules below, which are *monotone*: a state that violates them has
 no valid completion.  Hence ``G`` is reached.  Every state reached is a
@@ -52,7 +55,8 @@ Pruning rules (both sound for every completion ``G`` of a state ``S``):
    ``UB(S) = sum_placed max(0, low_i - b_i) + sum_unplaced (low_j - 1)``.
    A placed atom's ``b_i`` only grows, so its final ``h_i <= max(0, low_i -
    b_i(S))``; an unplaced atom ends with at least one bond (the graph is
-   connected and has >= 2 atoms), so its ``h_j <= low_j - 1``.
+   connected and has >= 2 atoms), so its ``h_j <= low_j - 1``.  (Charged
+   atoms, which carry no H, contribute 0.)
 
 De-duplication.  Each state is stored once, by a canonical form of the
 element-labelled multigraph.  The canonical form is the lexicographically
@@ -95,7 +99,7 @@ __all__ = [
     "parse_counts",
 ]
 
-#: The "standard" neutral valence set (lowest valence only), as in the brief.
+#: The "standard" neutral valence set (lowest valence of each element).
 STANDARD_VALENCES: dict[str, tuple[int, ...]] = {
     "C": (4,),
     "N": (3,),
@@ -110,6 +114,7 @@ STANDARD_VALENCES: dict[str, tuple[int, ...]] = {
     "Br": (1,),
     "I": (1,),
 }
+
 
 class SearchBudgetExceeded(RuntimeError):
     """Raised when more than ``max_states`` partial graphs would be stored."""
