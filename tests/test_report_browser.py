@@ -123,3 +123,16 @@ def test_every_svg_renders(report):
         assert b["w"] > 100 and b["h"] > 100, b
         assert b["bw"] > 20 and b["bh"] > 20, b
         assert b["shapes"] >= 5, b
+
+
+def test_prints_to_pdf_with_a_page_per_candidate(report):
+    # Print CSS starts every candidate on a new page (break-before: page).
+    tmp, page, data = report
+    pdf = tmp / "report.pdf"
+    proc = _run(page, tmp, f"--print-to-pdf={pdf}", "--no-pdf-header-footer")
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    assert _console(proc) == [], _console(proc)
+    raw = pdf.read_bytes()
+    assert raw.startswith(b"%PDF")
+    pages = len(re.findall(rb"/Type\s*/Page\b", raw))
+    assert pages >= len(data["candidates"]) + 1

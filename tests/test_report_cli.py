@@ -131,3 +131,21 @@ def test_dept_needs_a_spectrum_file():
     result = CliRunner().invoke(main, ["solve", "-f", "C4H8O2", "-p", "171.1, 60.5, 21.0, 14.2",
                                        "--dept135", str(SCENARIO / META["dept135"])])
     assert result.exit_code == 2 and "DEPT spectra were given" in result.stderr
+
+
+def test_readme_command_runs(tmp_path):
+    # The README's JCAMP-DX example, run as written (with the output moved to tmp).
+    import re
+    import shlex
+
+    text = (ROOT / "README.md").read_text()
+    folder = re.search(r"^S=(\S+)$", text, flags=re.M).group(1)
+    commands = re.findall(r"^elucidate solve ((?:[^\n]*\\\n)*[^\n]*)$", text, flags=re.M)
+    jcamp = [c for c in commands if "$S/" in c]
+    assert jcamp, "README has no JCAMP-DX solve example"
+    args = shlex.split(jcamp[0].replace("\\\n", " ").replace("$S", str(ROOT / folder)))
+    out = tmp_path / "report.html"
+    args[args.index("-o") + 1] = str(out)
+    result = CliRunner().invoke(main, ["solve", *args])
+    assert result.exit_code == 0, result.output
+    assert _canon(META["confirmed"]) in out.read_text()

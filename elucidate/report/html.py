@@ -127,7 +127,7 @@ def depiction_svg(smiles: str, *, width: int = 340, height: int = 260) -> str:
     drawer = rdMolDraw2D.MolDraw2DSVG(width, height)
     opts = drawer.drawOptions()
     opts.annotationFontScale = 0.6
-    opts.annotationColour = (0.0, 0.447, 0.698)  # Okabe-Ito blue, as the observed lines
+    opts.atomNoteColour = (0.0, 0.447, 0.698)  # Okabe-Ito blue: numbers read apart from element labels
     opts.clearBackground = False
     drawer.DrawMolecule(mol)
     drawer.FinishDrawing()
@@ -409,6 +409,8 @@ def _inputs(data: dict) -> str:
                 val = " ".join(f"{el}{'/'.join(str(v) for v in vs)}" for el, vs in val.items())
             elif isinstance(val, list):
                 val = ", ".join(str(v) for v in val) or "none"
+            elif isinstance(val, bool):
+                val = "yes" if val else "no"
             elif val is None:
                 val = "no limit"
             rows.append([f"<code>{_e(key)}</code>", _e(val)])
