@@ -102,8 +102,22 @@ def test_report_loads_without_console_messages_and_screenshot(report):
     assert _png_ink(shot) > 0.005, "the screenshot is blank"
 
 
-def test_every_svg_renders(report):
-    tmp, page, data = report
+@pytest.fixture(scope="module")
+def check_report(tmp_path_factory):
+    from elucidate.workflows.check import check_structure, check_to_dict
+
+    tmp = tmp_path_factory.mktemp("browser-check")
+    data = check_to_dict(check_structure("CCOC(C)=O", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3",
+                                         formula="C4H8O2", time_limit=20))
+    page = tmp / "check.html"
+    page.write_text(render_html(data), encoding="utf-8")
+    # a check page shows one structure: present it as a one-candidate result
+    return tmp, page, {"candidates": [data]}
+
+
+@pytest.mark.parametrize("which", ["report", "check_report"])
+def test_every_svg_renders(which, request):
+    tmp, page, data = request.getfixturevalue(which)
     html = page.read_text(encoding="utf-8")
     # The report forbids scripts (CSP); the probe copy allows inline ones.
     probe = html.replace("default-src 'none';", "default-src 'none'; script-src 'unsafe-inline';")

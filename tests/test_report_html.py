@@ -164,3 +164,31 @@ def test_bad_data_raises_input_error(bad, message):
 def test_unreadable_smiles_raises_input_error():
     with pytest.raises(InputError, match="cannot read candidate SMILES"):
         depiction_svg("C1CC")
+
+
+@pytest.fixture(scope="module")
+def check_data():
+    from elucidate.workflows.check import check_structure, check_to_dict
+
+    # ethyl acetate checked against its own lines (Fulmer 2010, from memory)
+    return check_to_dict(check_structure("CCOC(C)=O", ETHYL_ACETATE_PEAKS, formula="C4H8O2", time_limit=20))
+
+
+def test_check_result_gets_its_own_page(check_data):
+    page = render_html(check_data)
+    svgs = _svgs(page)
+    assert len(svgs) == 2  # expected structure + its stick spectrum
+    for svg in svgs:
+        ET.fromstring(svg)
+    assert f"Verdict: {check_data['verdict']}" in page
+    for reason in check_data["reasons"]:
+        assert reason.replace("'", "&#x27;") in page
+    for e in check_data["assignment"]:
+        assert f"{e['observed']:.2f}" in page and ", ".join(f"C{a + 1}" for a in e["atoms"]) in page
+    assert "hypothes" in page and "accredited procedures" in page
+
+
+def test_batch_sample_block_is_shown(data):
+    doc = {"sample": {"id": "KC-2211", "row": 3, "status": "ok", "fingerprint": "abc123"}, **data}
+    page = render_html(doc)
+    assert "<dd>KC-2211</dd>" in page and "abc123" not in page

@@ -103,3 +103,9 @@ def test_damaged_results_raise_input_error(data):
     cand["assignment"] = [dict(cand["assignment"][0], atoms=[99])]
     with pytest.raises(InputError, match="has 5 atoms"):
         render_sdf(dict(data, candidates=[cand]))
+
+
+def test_check_results_are_refused():
+    doc = {"workflow": "check", "formula": "C4H8O2", "smiles": "CCOC(C)=O", "assignment": []}
+    with pytest.raises(InputError, match="solve result"):
+        render_sdf(doc)

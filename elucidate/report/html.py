@@ -56,13 +56,14 @@ _DEFAULT_CAUTION = (
 
 
 def check_result_data(data: Any) -> dict:
-    """Check that ``data`` looks like a serialised solve result.
+    """Check that ``data`` looks like a serialised solve or check result.
 
     Parameters
     ----------
     data : dict
         Output of :func:`elucidate.report.serialize.result_to_dict` (or the
-        same read from JSON).
+        same read from JSON), or of the check workflow (``"workflow":
+        "check"``, with ``smiles`` and ``assignment``).
 
     Returns
     -------
@@ -77,6 +78,12 @@ def check_result_data(data: Any) -> dict:
     hint = "give the JSON written by 'elucidate solve --format json'"
     if not isinstance(data, dict):
         raise InputError(f"result must be a JSON object, got {type(data).__name__}; {hint}")
+    if data.get("workflow") == "check":
+        for key, kind in (("formula", str), ("smiles", str), ("assignment", list)):
+            if not isinstance(data.get(key), kind):
+                raise InputError(f"check result has no valid {key!r}; give the JSON written by the check "
+                                 "workflow")
+        return data
     missing = [k for k in _REQUIRED if k not in data]
     if missing:
         raise InputError(f"result has no {', '.join(repr(k) for k in missing)}; {hint}")
@@ -383,8 +390,8 @@ def _inputs(data: dict) -> str:
     s = data.get("settings") or {}
     facts = [
         ("Molecular formula", _e(data["formula"])),
-        ("DBE (rings + double bonds)", _e(data.get("dbe", "\u2013"))),
-        ("Solvent", _e(s.get("solvent") or "not given (no solvent lines removed)")),
+        ("DBE (rings + double bonds)", _e(data["dbe"]) if data.get("dbe") is not None else "not recorded"),
+        ("Solvent", _e(s.get("solvent") or ("not given (no solvent lines removed)" if s else "not recorded"))),
         ("Observed lines", _e(len(data.get("peaks") or []))),
     ]
     if data.get("observe_mhz"):
@@ -442,10 +449,7 @@ def _search(data: dict) -> str:
                 for r in log]
         out.append(_table(["constraint", "before", "after"], rows, {1, 2},
                           "Constraint log: counts before and after each constraint"))
-    warnings = data.get("warnings") or []
-    if warnings:
-        out.append('<h3>Warnings</h3><ul class="warn">' + "".join(f"<li>{_e(w)}</li>" for w in warnings)
-                   + "</ul>")
+    out.append(_search_warnings(data))
     return "".join(out)
 
 
@@ -481,19 +485,7 @@ def _candidate(c: dict, peaks: list[dict]) -> str:
     out.append('<figcaption class="legend"><span class="key-obs">&#9650; observed lines (numbers = line)</span>'
                '<span class="key-pred">&#9660; predicted classes</span>'
                "<span>dashed grey: assigned pairs</span></figcaption></figure></div>")
-    rows = []
-    for e in sorted(assignment, key=lambda e: (e.get("peak_index", 0), tuple(e.get("atoms") or ()))):
-        obs, prd = e.get("observed"), e.get("predicted")
-        diff = (float(prd) - float(obs)) if obs is not None and prd is not None else None
-        rows.append([
-            _e((e.get("peak_index") or 0) + 1), _f(obs), _f(prd),
-            ("\u2013" if diff is None else f"{diff:+.2f}"),
-            _e(", ".join(f"C{a + 1}" for a in e.get("atoms") or [])),
-            _e("" if e.get("kind") in (None, "primary") else e["kind"]),
-        ])
-    for i in c.get("unfilled_lines") or []:
-        shift = peaks[i].get("shift") if 0 <= i < len(peaks) else None
-        rows.append([_e(i + 1), _f(shift), "\u2013", "\u2013", "none", "unexplained line"])
+    rows = _assignment_rows(assignment, peaks, c.get("unfilled_lines") or [])
     out.append(_table(["line", "observed / ppm", "predicted / ppm", "diff / ppm", "carbons", "note"], rows,
                       {0, 1, 2, 3}, f"Assignment of the observed lines to the carbons of candidate {rank}"))
     preds = c.get("predicted_shifts") or []
@@ -506,6 +498,132 @@ def _candidate(c: dict, peaks: list[dict]) -> str:
     return "".join(out)
 
 
+def _sample(data: dict) -> str:
+    """The ``sample`` block a batch run adds (id, row, status ...), if any."""
+    sample = data.get("sample")
+    if not isinstance(sample, dict):
+        return ""
+    rows = [(k, v) for k, v in sample.items()
+            if k != "fingerprint" and v not in (None, "") and not isinstance(v, (dict, list))]
+    if not rows:
+        return ""
+    return ('<h2>Sample</h2><dl class="facts">'
+            + "".join(f"<dt>{_e(k)}</dt><dd>{_e(v)}</dd>" for k, v in rows) + "</dl>")
+
+
+def _assignment_rows(assignment: list[dict], peaks: list[dict], unfilled=()) -> list[list[str]]:
+    rows = []
+    for e in sorted(assignment, key=lambda e: (e.get("peak_index", 0), tuple(e.get("atoms") or ()))):
+        obs, prd = e.get("observed"), e.get("predicted")
+        diff = (float(prd) - float(obs)) if obs is not None and prd is not None else None
+        note = [] if e.get("kind") in (None, "primary") else [str(e["kind"])]
+        if e.get("flag"):
+            note.append(str(e["flag"]))
+        rows.append([
+            _e((e.get("peak_index") or 0) + 1), _f(obs), _f(prd),
+            ("\u2013" if diff is None else f"{diff:+.2f}"),
+            _e(", ".join(f"C{a + 1}" for a in e.get("atoms") or [])), _e("; ".join(note)),
+        ])
+    for i in unfilled or []:
+        shift = peaks[i].get("shift") if 0 <= i < len(peaks) else None
+        rows.append([_e(i + 1), _f(shift), "\u2013", "\u2013", "none", "unexplained line"])
+    return rows
+
+
+def _render_check(data: dict, title: str | None) -> str:
+    """Page for a check result: one expected structure against the lines."""
+    peaks = data.get("peaks") or []
+    title = title or f"elucidate check report: {data['smiles']}"
+    fit = data.get("fit") or {}
+    verdict = str(data.get("verdict") or "not recorded")
+    body = [
+        f"<h1>{_e(title)}</h1>",
+        f'<p class="sub">Does the expected structure {_e(data["smiles"])} ({_e(data["formula"])}) explain '
+        "the observed 13C lines? The verdict is a hypothesis, not an identification.</p>",
+        f'<div class="caution" role="note"><strong>Caution.</strong> {_e(data.get("caution") or _DEFAULT_CAUTION)}'
+        "</div>",
+        _sample(data),
+        f"<h2>Verdict: {_e(verdict)}</h2>",
+    ]
+    reasons = data.get("reasons") or []
+    if reasons:
+        body.append("<ul>" + "".join(f"<li>{_e(r)}</li>" for r in reasons) + "</ul>")
+    labels = {"mae_ppm": "MAE / ppm", "max_error_ppm": "largest deviation / ppm",
+              "gross_deviations": "gross deviations", "unexplained_lines": "unexplained lines",
+              "carbons_without_own_line": "carbons without a line of their own"}
+    facts = [(labels[k], _f(fit[k]) if k.endswith("ppm") else _e(fit[k])) for k in labels if k in fit]
+    if facts:
+        body.append('<dl class="facts">' + "".join(f"<dt>{_e(k)}</dt><dd>{v}</dd>" for k, v in facts) + "</dl>")
+    body.append('<div class="figs"><figure>' + depiction_svg(data["smiles"])
+                + "<figcaption>Expected structure; carbons numbered by their position in the SMILES."
+                "</figcaption></figure><figure>"
+                + stick_spectrum_svg(peaks, data["assignment"], title="expected structure: observed and "
+                                     "predicted 13C lines")
+                + '<figcaption class="legend"><span class="key-obs">&#9650; observed lines</span>'
+                '<span class="key-pred">&#9660; predicted classes</span><span>dashed grey: assigned pairs'
+                "</span></figcaption></figure></div>")
+    body.append(_table(["line", "observed / ppm", "predicted / ppm", "diff / ppm", "carbons", "note"],
+                       _assignment_rows(data["assignment"], peaks), {0, 1, 2, 3},
+                       "Assignment of the observed lines to the carbons of the expected structure"))
+    alts = data.get("alternatives") or []
+    body.append("<h2>Isomers that fit better</h2>")
+    if alts:
+        rows = [[_e(a.get("rank")), f'<span class="smiles">{_e(a.get("smiles"))}</span>', _f(a.get("mae_ppm")),
+                 _f(a.get("max_error_ppm")), _f(a.get("pairwise_probability"), 3),
+                 "yes" if a.get("clearly_better") else "no"] for a in alts]
+        body.append(_table(["rank", "SMILES", "MAE / ppm", "max / ppm", "pairwise probability",
+                            "clearly better"], rows, {0, 2, 3, 4}))
+    else:
+        body.append("<p>None found among the isomers searched.</p>")
+    search = data.get("search") or {}
+    if search.get("complete") is True:
+        body.append('<p class="status-ok">The isomer search was exhaustive under its constraints.</p>')
+    elif search.get("complete") is False:
+        body.append('<p class="status-cut">The isomer search was cut short: better-fitting isomers may '
+                    "exist that are not listed.</p>")
+    stages = search.get("stages") or []
+    if stages:
+        rows = [[_e(st.get("stage")), _e(st.get("ranked")), "yes" if st.get("complete") else "no",
+                 _f(st.get("seconds"), 1)] for st in stages]
+        body.append(_table(["stage", "structures ranked", "complete", "seconds"], rows, {1, 3},
+                           "Isomer search stages"))
+    body.append("<h2>Inputs</h2>" + _inputs(data) + _search_warnings(data))
+    return _page(title, body)
+
+
+def _search_warnings(data: dict) -> str:
+    warnings = data.get("warnings") or []
+    if not warnings:
+        return ""
+    return '<h3>Warnings</h3><ul class="warn">' + "".join(f"<li>{_e(w)}</li>" for w in warnings) + "</ul>"
+
+
+def _page(title: str, body: list[str]) -> str:
+    from .. import __version__
+
+    body = body + [
+        '<h2>Before acting on this report</h2><div class="caution" role="note"><ul>'
+        "<li>These are hypotheses ranked by agreement between predicted and observed 13C shifts, "
+        "not identifications. A top rank means the structure fits best among those searched.</li>"
+        "<li>Confirm with a reference standard and orthogonal methods (MS/MS, 1H and 2D NMR, IR, "
+        "chromatographic co-injection).</li>"
+        "<li>Forensic and QC decisions follow the laboratory's accredited procedures and local "
+        "regulations, never this report alone.</li>"
+        "<li>An incomplete search may miss the right structure; probabilities are relative to the "
+        "listed candidates only.</li></ul></div>",
+        f"<footer>Rendered by elucidate {_e(__version__)} from the saved result data; "
+        "structure pictures drawn with RDKit.</footer>",
+    ]
+    return (
+        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
+        f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">'
+        '<meta name="viewport" content="width=device-width, initial-scale=1">'
+        f"<title>{_e(title)}</title><style>{_CSS}</style></head>\n<body>\n"
+        + "\n".join(b for b in body if b)
+        + "\n</body></html>\n"
+    )
+
+
 def render_html(data: dict, *, top: int | None = None, title: str | None = None) -> str:
     """Render the plain-data result as one self-contained HTML page.
 
@@ -514,7 +632,11 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None)
     data : dict
         A serialised solve result (see :mod:`elucidate.report.serialize`);
         optional keys are shown when present (``peaks_provenance``,
-        ``observe_mhz``, ``settings``, ``warnings`` ...).
+        ``observe_mhz``, ``settings``, ``warnings``, a batch run's
+        ``sample`` block ...).  A check-workflow result (``"workflow":
+        "check"``) gets a page of its own: verdict, reasons, the expected
+        structure with its stick spectrum and assignment, better-fitting
+        isomers and the search stages.
     top : int, optional
         Show only the first ``top`` candidates (default: all in ``data``).
     title : str, optional
@@ -528,23 +650,24 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None)
     Raises
     ------
     InputError
-        When ``data`` is not a solve result or ``top`` is not a positive
-        integer.
+        When ``data`` is not a solve or check result or ``top`` is not a
+        positive integer.
     """
     check_result_data(data)
     if top is not None and (isinstance(top, bool) or not isinstance(top, int) or top < 1):
         raise InputError(f"top must be a positive integer, got {top!r}")
+    if data.get("workflow") == "check":
+        return _render_check(data, title)
     cands = data["candidates"][:top] if top else list(data["candidates"])
     peaks = data.get("peaks") or []
     caution = data.get("caution") or _DEFAULT_CAUTION
     title = title or f"elucidate report: {data['formula']}"
-    from .. import __version__
-
     body = [
         f"<h1>{_e(title)}</h1>",
         f'<p class="sub">Candidate structures for {_e(data["formula"])} from its 13C NMR lines: '
         "hypotheses for a chemist to test, not identifications.</p>",
         f'<div class="caution" role="note"><strong>Caution.</strong> {_e(caution)}</div>',
+        _sample(data),
         "<h2>Ranked candidates</h2>",
         _summary(cands) if cands else "<p>No structure fits these data and constraints.</p>",
         "<h2>Inputs</h2>",
@@ -557,24 +680,4 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None)
         body.append("<p>Atom numbers are 1-based positions in each SMILES as written (the molfile "
                     "numbering of the SDF export). The stick spectra run from high to low chemical shift.</p>")
         body += [_candidate(c, peaks) for c in cands]
-    body.append(
-        '<h2>Before acting on this report</h2><div class="caution" role="note"><ul>'
-        "<li>These are hypotheses ranked by agreement between predicted and observed 13C shifts, "
-        "not identifications. A top rank means the structure fits best among those searched.</li>"
-        "<li>Confirm with a reference standard and orthogonal methods (MS/MS, 1H and 2D NMR, IR, "
-        "chromatographic co-injection).</li>"
-        "<li>Forensic and QC decisions follow the laboratory's accredited procedures and local "
-        "regulations, never this report alone.</li>"
-        "<li>An incomplete search may miss the right structure; probabilities are relative to the "
-        "listed candidates only.</li></ul></div>"
-    )
-    body.append(f"<footer>Rendered by elucidate {_e(__version__)} from the saved result data; "
-                "structure pictures drawn with RDKit.</footer>")
-    return (
-        "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
-        f'<meta http-equiv="Content-Security-Policy" content="{_CSP}">'
-        '<meta name="viewport" content="width=device-width, initial-scale=1">'
-        f"<title>{_e(title)}</title><style>{_CSS}</style></head>\n<body>\n"
-        + "\n".join(body)
-        + "\n</body></html>\n"
-    )
+    return _page(title, body)

@@ -86,6 +86,9 @@ def render_sdf(data: dict, *, top: int | None = None) -> str:
     from rdkit.Chem import rdDepictor
 
     check_result_data(data)
+    if "candidates" not in data:
+        raise InputError("the SDF export takes a solve result (with 'candidates'); give the JSON written by "
+                         "'elucidate solve --format json'")
     if top is not None and (isinstance(top, bool) or not isinstance(top, int) or top < 1):
         raise InputError(f"top must be a positive integer, got {top!r}")
     cands = data["candidates"][:top] if top else data["candidates"]
