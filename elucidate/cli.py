@@ -234,6 +234,10 @@ def _render(data: dict, fmt: str, top: int | None = None) -> str:
         from .report.sdf import render_sdf
 
         return render_sdf(data, top=top)
+    if data.get("workflow") == "check":
+        from .workflows.check import render_check_text
+
+        return render_check_text(data)
     from .report.text import render_text
 
     if top:
@@ -273,7 +277,7 @@ def report(result_file, fmt, top, output):
         raise InputError(f"result file {result_file!r} is not JSON ({exc.msg}, line {exc.lineno}); give "
                          "the file written by 'elucidate solve --format json'") from None
     check_result_data(data)
-    if fmt == "text":
+    if fmt == "text" and data.get("workflow") != "check":
         for key, default in (("complete", False), ("elapsed_s", 0.0), ("candidates_generated", 0),
                              ("peaks", []), ("constraint_log", []), ("warnings", []), ("caution", "")):
             data.setdefault(key, default)

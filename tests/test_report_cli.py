@@ -149,3 +149,19 @@ def test_readme_command_runs(tmp_path):
     result = CliRunner().invoke(main, ["solve", *args])
     assert result.exit_code == 0, result.output
     assert _canon(META["confirmed"]) in out.read_text()
+
+
+def test_report_renders_a_saved_check_result(tmp_path):
+    from elucidate.workflows.check import check_structure, check_to_dict
+
+    # ethyl acetate, CDCl3 (Fulmer et al., Organometallics 2010, 29, 2176; from memory)
+    doc = check_to_dict(check_structure("CCOC(C)=O", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3",
+                                        formula="C4H8O2", time_limit=20))
+    path = tmp_path / "check.json"
+    path.write_text(json.dumps(doc))
+    html = CliRunner().invoke(main, ["report", str(path)])
+    assert html.exit_code == 0 and f"Verdict: {doc['verdict']}" in html.stdout
+    text = CliRunner().invoke(main, ["report", str(path), "--format", "text"])
+    assert text.exit_code == 0 and doc["verdict"].upper() in text.stdout
+    sdf = CliRunner().invoke(main, ["report", str(path), "--format", "sdf"])
+    assert sdf.exit_code == 2 and "solve result" in sdf.stderr
