@@ -15,10 +15,13 @@ structure we expect?" in three steps:
    (Student-t with ``NU`` = 3 degrees of freedom, scale ``sigma``; the
    DP4-style model of Smith & Goodman, J. Am. Chem. Soc. 2010, 132, 12946,
    from memory) is below :data:`GROSS_TAIL` = 0.1 %.
-3. **Alternatives.**  Isomers of the same formula are generated and ranked
-   on the same lines: first those containing the expected structure's own
-   Murcko scaffold (Bemis & Murcko 1996, from memory), then the open formula,
-   within the time limit.  An isomer fits *clearly better* when the
+3. **Alternatives.**  Isomers of the same formula are ranked on the same
+   lines, nearest first: positional isomers of the expected structure (one
+   or two substituents moved, :mod:`.regio`), then generated isomers that
+   contain the expected structure's ring systems and linkers (its Murcko
+   framework: Bemis & Murcko 1996, from memory), then the open formula,
+   all within the time limit.  Alternatives must be at least as plausible
+   as the expected structure (no implausible motif it lacks).  An isomer fits *clearly better* when the
    likelihood ratio to the expected structure is at least
    :data:`CLEARLY_BETTER_RATIO` (= 19, i.e. a pairwise posterior of 95 %
    with equal priors; ``delta_cost >= ln 19``).
@@ -230,21 +233,69 @@ def _fits(assignment: Assignment, peaks) -> tuple[PeakFit, ...]:
     return tuple(out)
 
 
+def _plausibility_like(expected: Chem.Mol) -> Callable[[Chem.Mol], bool]:
+    """Keep structures free of implausible motifs the expected structure lacks.
+
+    Alternatives must be at least as plausible as the expected structure:
+    every motif of :data:`~elucidate.constraints.structural.IMPLAUSIBLE_MOTIFS`
+    (three- and four-membered rings, peroxides, enols, ...) is forbidden
+    unless the expected structure has it too.
+    """
+    from ..constraints.structural import IMPLAUSIBLE_MOTIFS
+
+    queries = []
+    for motif in IMPLAUSIBLE_MOTIFS:
+        q = Chem.MolFromSmarts(motif.smarts)
+        if not expected.HasSubstructMatch(q):
+            queries.append(q)
+    return lambda m: not any(m.HasSubstructMatch(q) for q in queries)
+
+
 def _search_alternatives(formula, peaks, expected: Chem.Mol, expected_cost: float, scaffold: str | None,
                          time_limit: float, keep: int, charged: bool, allow_all: bool,
                          progress: Callable[[str], None] | None):
+    """Stages: positional isomers, same scaffold (generator + filter), open formula."""
     from ..pipeline import SolveSettings, rank_structure, solve
+    from .regio import positional_isomers
+    from .scaffold import parse_scaffold
 
     canon_expected = _canon(expected)
-    stages = []
-    if scaffold:
-        stages.append(("same scaffold", scaffold, 0.5 * time_limit))
-    stages.append(("open formula", None, None))
     deadline = time.monotonic() + time_limit
     found: dict[str, tuple[Assignment, bool]] = {}
     log = []
     complete = True
-    scaffold_q = Chem.MolFromSmiles(scaffold) if scaffold else None
+    scaffold_q = parse_scaffold(scaffold) if scaffold else None
+    plausible = (lambda m: True) if allow_all else _plausibility_like(expected)
+
+    def consider(smi: str, mol: Chem.Mol | None = None) -> None:
+        if smi == canon_expected or smi in found:
+            return
+        mol = mol if mol is not None else Chem.MolFromSmiles(smi)
+        if mol is None or not plausible(mol):
+            return
+        assignment, _ = rank_structure(mol, peaks.peaks)
+        if math.isinf(assignment.cost):
+            return
+        same = bool(scaffold_q is not None and mol.HasSubstructMatch(scaffold_q))
+        found[smi] = (assignment, same)
+
+    # 1. positional isomers of the expected structure (up to two moves)
+    if parse_formula(_mol_formula(expected)).hill == formula.hill:
+        if progress:
+            progress("ranking positional isomers of the expected structure")
+        t0 = time.monotonic()
+        n = 0
+        budget = 0.25 * time_limit
+        for smi in positional_isomers(canon_expected, depth=2, time_limit=budget):
+            n += 1
+            consider(smi)
+        spent = time.monotonic() - t0
+        log.append(("positional isomers", n, spent < budget, round(spent, 2)))
+
+    stages = []
+    if scaffold:
+        stages.append(("same scaffold", scaffold, 0.35 * time_limit))
+    stages.append(("open formula", None, None))
     for name, scaf, budget in stages:
         left = deadline - time.monotonic()
         if left <= 0.05:
@@ -262,25 +313,17 @@ def _search_alternatives(formula, peaks, expected: Chem.Mol, expected_cost: floa
         if name == "open formula":
             complete = complete and result.complete
         for cand in result.candidates:
-            if cand.smiles == canon_expected or cand.smiles in found:
-                continue
-            mol = Chem.MolFromSmiles(cand.smiles)
-            if mol is None:
-                continue
-            assignment, _ = rank_structure(mol, peaks.peaks)
-            if math.isinf(assignment.cost):
-                continue
-            same = bool(scaffold_q is not None and mol.HasSubstructMatch(scaffold_q))
-            found[cand.smiles] = (assignment, same)
+            consider(cand.smiles)
     alts = []
     for smi, (a, same) in found.items():
         delta = expected_cost - a.cost if math.isfinite(expected_cost) else math.inf
         if delta <= 0:
             continue
         prob = 1.0 if math.isinf(delta) else 1.0 / (1.0 + math.exp(-delta))
-        alts.append(Alternative(smi, round(a.cost, 4), round(delta, 4) if math.isfinite(delta) else math.inf,
+        alts.append(Alternative(smi, round(float(a.cost), 4),
+                                round(float(delta), 4) if math.isfinite(delta) else math.inf,
                                 round(prob, 4), round(a.mae, 2), round(a.max_error, 2), same,
-                                delta >= math.log(CLEARLY_BETTER_RATIO)))
+                                bool(delta >= math.log(CLEARLY_BETTER_RATIO))))
     alts.sort(key=lambda x: (x.cost, x.smiles))
     return alts, tuple(log), complete
 

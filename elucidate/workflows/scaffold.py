@@ -45,6 +45,14 @@ def parse_scaffold(smiles: str) -> Chem.Mol:
     text = smiles.strip()
     RDLogger.DisableLog("rdApp.*")
     mol = Chem.MolFromSmiles(text)
+    if mol is None:  # e.g. an aromatic ring cut out of a larger system: keep it as written
+        mol = Chem.MolFromSmiles(text, sanitize=False)
+        if mol is not None:
+            try:
+                mol.UpdatePropertyCache(strict=False)
+                Chem.FastFindRings(mol)
+            except Exception:  # RDKit raises assorted errors on malformed input
+                mol = None
     if mol is None:
         mol = Chem.MolFromSmarts(text)
         if mol is not None:
@@ -97,17 +105,27 @@ def scaffold_filter(smiles: str, formula=None) -> StructureFilter:
 
 
 def murcko_scaffold(mol: Chem.Mol) -> str | None:
-    """SMILES of the Murcko framework of ``mol`` (None for acyclic molecules).
+    """SMILES of the ring systems and linkers of ``mol`` (None for acyclic molecules).
+
+    The Murcko framework without its exocyclic double-bonded atoms, so that
+    moving a carbonyl or a substituent around a ring keeps the scaffold.
+    Aromatic fragments are written as they occur in ``mol`` (they may not
+    stand alone as molecules; :func:`parse_scaffold` accepts them).
 
     Examples
     --------
     >>> murcko_scaffold(Chem.MolFromSmiles("CC(=O)Nc1ccc(O)cc1"))
     'c1ccccc1'
+    >>> murcko_scaffold(Chem.MolFromSmiles("O=C1CCCCC1C"))
+    'C1CCCCC1'
     >>> murcko_scaffold(Chem.MolFromSmiles("CCCO")) is None
     True
     """
     if mol.GetRingInfo().NumRings() == 0:
         return None
     core = MurckoScaffold.GetScaffoldForMol(mol)
-    text = Chem.MolToSmiles(core)
+    keep = [a.GetIdx() for a in core.GetAtoms() if a.IsInRing() or a.GetDegree() > 1]
+    if not keep:
+        return None
+    text = Chem.MolFragmentToSmiles(core, atomsToUse=keep, canonical=True)
     return text or None
