@@ -105,6 +105,21 @@ def test_oracle_wide_sulfur_valences():
     assert "CS(C)(=O)=O" not in brute_force_isomers("C2H6O2S")
 
 
+def test_oracle_is_independent_of_the_package():
+    # The oracle must not share code with the generator (issue 3: "an
+    # independent, simple brute-force enumerator written only for the tests").
+    import ast
+
+    tree = ast.parse((Path(__file__).resolve().parent / "bruteforce.py").read_text())
+    imported = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Import):
+            imported |= {a.name.split(".")[0] for a in node.names}
+        elif isinstance(node, ast.ImportFrom):
+            imported.add((node.module or "").split(".")[0] if node.level == 0 else ".")
+    assert imported <= {"__future__", "re", "itertools", "rdkit"}, imported
+
+
 def _naive_canonical(elems, adj):
     """Minimum certificate over all n! orderings (definition of isomorphism)."""
     n = len(elems)
