@@ -367,6 +367,9 @@ def run_batch(
     else:
         from concurrent.futures import ProcessPoolExecutor, as_completed
 
+        from ..predict.model import load_default_model
+
+        load_default_model()  # once here: forked workers inherit the loaded table
         with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
             futures = {pool.submit(run_sample, s, options): s for s in todo}
             for fut in as_completed(futures):
