@@ -23,7 +23,7 @@ from rdkit import Chem
 
 from .errors import InputError
 from .formula import parse_formula
-from .pipeline import SolveSettings, solve
+from .pipeline import SolveSettings, explain_constraints, solve
 from .spectrum.peaks import peaks_from_records
 
 __all__ = ["read_cases", "run_bench", "format_bench_table", "BANDS"]
@@ -94,6 +94,10 @@ def run_bench(
         answer = _canon(case["answer"])
         peaks = peaks_from_records(_records_for_mode(case["peaks"], mode))
         row = {"id": case["id"], "formula": formula.hill, "heavy_atoms": formula.heavy_atoms}
+        answer_mol = Chem.MolFromSmiles(case["answer"])
+        if answer_mol is not None:
+            verdicts = explain_constraints(answer_mol, formula, peaks, settings)
+            row["answer_failed_constraints"] = [name for name, ok in verdicts if not ok]
         try:
             result = solve(formula, peaks, settings)
         except InputError as exc:
@@ -131,7 +135,7 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
     order = sorted(groups, key=lambda b: int(b.split("-")[0]))
     lines = [f"mode {mode}: {len(rows)} cases",
              f"{'band':>6} {'n':>4} {'top1':>6} {'top3':>6} {'top5':>6} {'top10':>6} {'found':>6} "
-             f"{'compl':>6} {'t_med':>7} {'t_p90':>7}"]
+             f"{'compl':>6} {'surv':>6} {'t_med':>7} {'t_p90':>7}"]
 
     def stats(rs):
         n = len(rs)
@@ -139,15 +143,23 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
             return 100.0 * sum(1 for r in rs if r["rank"] is not None and r["rank"] <= k) / n
         found = 100.0 * sum(1 for r in rs if r["rank"] is not None) / n
         comp = 100.0 * sum(1 for r in rs if r["complete"]) / n
+        surv = 100.0 * sum(1 for r in rs if not r.get("answer_failed_constraints")) / n
         times = sorted(r["elapsed_s"] for r in rs if r["elapsed_s"] is not None) or [float("nan")]
         med = statistics.median(times)
         p90 = times[min(len(times) - 1, int(round(0.9 * (len(times) - 1))))]
         return (f"{n:>4} {rate(1):>5.1f}% {rate(3):>5.1f}% {rate(5):>5.1f}% {rate(10):>5.1f}% "
-                f"{found:>5.1f}% {comp:>5.1f}% {med:>6.1f}s {p90:>6.1f}s")
+                f"{found:>5.1f}% {comp:>5.1f}% {surv:>5.1f}% {med:>6.1f}s {p90:>6.1f}s")
 
     for b in order:
         lines.append(f"{b:>6} " + stats(groups[b]))
     lines.append(f"{'all':>6} " + stats(rows))
+    lines.append("surv = the answer passes every default constraint (checked on the answer itself)")
+    killers: dict[str, int] = {}
+    for r in rows:
+        for name in r.get("answer_failed_constraints", []):
+            killers[name] = killers.get(name, 0) + 1
+    for name, k in sorted(killers.items(), key=lambda kv: (-kv[1], kv[0])):
+        lines.append(f"  answer excluded by {name}: {k} case(s)")
     errors = [r for r in rows if r.get("error")]
     if errors:
         lines.append(f"{len(errors)} case(s) rejected as input errors, e.g. {errors[0]['id']}: {errors[0]['error']}")

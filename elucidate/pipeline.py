@@ -22,6 +22,12 @@ from typing import Callable, Sequence
 
 from rdkit import Chem
 
+from .constraints.environments import (
+    environment_row_check_factory,
+    kekule_forms,
+    load_environment_table,
+    mol_environment_keys,
+)
 from .constraints.spectral import (
     SymmetryAllowance,
     carbon_classes,
@@ -31,14 +37,21 @@ from .constraints.spectral import (
 from .constraints.structural import implausible_motif_filters, ring_filters, smarts_filters
 from .errors import InputError
 from .formula import Formula, parse_formula
-from .generate import WIDE_VALENCES, enumerate_isomers
+from .generate import WIDE_VALENCES, AtomType, StructureFilter, enumerate_isomers
 from .generate.atomtypes import type_distributions
 from .predict import predict_mol
 from .rank.assignment import Assignment, CarbonClass, LineEntry, assign_lines
 from .spectrum.peaks import PeakList, check_against_formula, read_peaks
 from .spectrum.solvents import remove_solvent_lines
 
-__all__ = ["SolveSettings", "Candidate", "SolveResult", "solve", "rank_structure"]
+__all__ = [
+    "SolveSettings",
+    "Candidate",
+    "SolveResult",
+    "solve",
+    "rank_structure",
+    "explain_constraints",
+]
 
 CAUTION = (
     "Results are hypotheses, not identifications: confirm with reference standards and "
@@ -61,6 +74,7 @@ class SolveSettings:
     min_ring_size: int | None = None
     max_ring_size: int | None = None
     symmetry: SymmetryAllowance = SymmetryAllowance()
+    environment_margin: float | None = 4.0
     solvent: str | None = None
     time_limit: float = 60.0
     top: int = 10
@@ -152,6 +166,67 @@ def prepare_peaks(formula: Formula, peaks_source, solvent: str | None) -> PeakLi
     return check_against_formula(peaks, formula)
 
 
+@dataclass
+class _Constraints:
+    accept: Callable
+    filters: list[StructureFilter]
+    row_check_factory: Callable | None
+    env_check: Callable | None  # (mol) -> bool, for explanations
+
+
+def _constraints(formula: Formula, peaks: PeakList, settings: SolveSettings) -> _Constraints:
+    accept = carbon_hydrogen_rule(peaks.peaks, formula.carbons)
+    filters: list[StructureFilter] = []
+    if not settings.allow_all:
+        filters += implausible_motif_filters(only_default=True)
+    filters += smarts_filters(settings.require, settings.forbid)
+    if settings.scaffold:
+        from .workflows.scaffold import scaffold_filter
+
+        filters.append(scaffold_filter(settings.scaffold, formula))
+    filters += ring_filters(settings.max_rings, settings.min_ring_size, settings.max_ring_size)
+    filters.append(symmetry_filter(peaks.peaks, settings.symmetry))
+    factory = env_check = None
+    table = load_environment_table() if settings.environment_margin is not None else None
+    if table is not None:
+        factory = environment_row_check_factory(peaks.peaks, table, settings.environment_margin)
+
+        def env_check(mol):
+            for form in kekule_forms(mol):
+                keys = mol_environment_keys(form)
+                if all(factory.allowed(form.GetAtomWithIdx(i).GetTotalNumHs(), k) for i, k in keys.items()):
+                    return True
+            return False
+
+    return _Constraints(accept, filters, factory, env_check)
+
+
+def _mol_types(mol: Chem.Mol) -> tuple[AtomType, ...]:
+    types = []
+    for atom in mol.GetAtoms():
+        h = atom.GetTotalNumHs()
+        types.append(AtomType(atom.GetSymbol(), int(atom.GetTotalValence()), h, atom.GetFormalCharge()))
+    return tuple(sorted(types))
+
+
+def explain_constraints(mol: Chem.Mol, formula: Formula, peaks: PeakList,
+                        settings: SolveSettings | None = None) -> list[tuple[str, bool]]:
+    """Which constraints of a solve a given structure passes.
+
+    Used to check that the defaults do not exclude a known answer, and by
+    the verification workflow to say why an expected structure was not
+    proposed.
+    """
+    settings = settings or SolveSettings()
+    cons = _constraints(formula, peaks, settings)
+    out = [("DEPT hydrogen counts", bool(cons.accept(_mol_types(mol))))]
+    for flt in cons.filters:
+        out.append((flt.name, bool(flt.keep(mol))))
+    if cons.env_check is not None:
+        out.append((f"shift environments (margin {settings.environment_margin:g} ppm)", cons.env_check(mol)))
+    return out
+
+
 def solve(
     formula: Formula | str,
     peaks,
@@ -181,25 +256,16 @@ def solve(
     start = time.monotonic()
     valences = dict(settings.valences)
 
-    accept = carbon_hydrogen_rule(peaks.peaks, formula.carbons)
-    filters = []
-    if not settings.allow_all:
-        filters += implausible_motif_filters(only_default=True)
-    filters += smarts_filters(settings.require, settings.forbid)
-    if settings.scaffold:
-        from .workflows.scaffold import scaffold_filter
-
-        filters.append(scaffold_filter(settings.scaffold, formula))
-    filters += ring_filters(settings.max_rings, settings.min_ring_size, settings.max_ring_size)
-    filters.append(symmetry_filter(peaks.peaks, settings.symmetry))
+    cons = _constraints(formula, peaks, settings)
 
     all_dists = sum(1 for _ in type_distributions(formula, valences, charged_nitrogen=settings.charged_nitrogen))
     run = enumerate_isomers(
         formula,
         valences=valences,
         charged_nitrogen=settings.charged_nitrogen,
-        filters=filters,
-        accept_types=accept,
+        filters=cons.filters,
+        accept_types=cons.accept,
+        row_check_factory=cons.row_check_factory,
         time_limit=settings.time_limit,
     )
     heap: list[tuple[float, int, _Scored]] = []
@@ -235,6 +301,9 @@ def solve(
             "solvent/impurity lines, or relax options (--allow-all)"
         )
     log = [("atom-type distributions (DEPT H counts)", all_dists, run.distributions)]
+    if cons.row_check_factory is not None:
+        log.append((f"shift environments (partial structures pruned, margin {settings.environment_margin:g} ppm)",
+                    cons.row_check_factory.checked, cons.row_check_factory.checked - cons.row_check_factory.rejected))
     log += run.filter_log
     return SolveResult(
         formula=formula,

@@ -46,6 +46,8 @@ __all__ = [
     "build_environment_table",
     "load_environment_table",
     "environment_row_check_factory",
+    "EnvironmentRule",
+    "kekule_forms",
     "DEFAULT_TABLE_PATH",
 ]
 
@@ -88,7 +90,7 @@ def mol_environment_keys(mol: Chem.Mol) -> dict[int, tuple[str, str]]:
     return out
 
 
-def _kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
+def kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
     if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
         return [mol]
     forms = []
@@ -154,7 +156,7 @@ def build_environment_table(
         if mol is None or not shifts:
             continue
         n_mols += 1
-        for form in _kekule_forms(mol):
+        for form in kekule_forms(mol):
             for idx, keys in mol_environment_keys(form).items():
                 if idx in shifts:
                     for k in set(keys):
@@ -185,7 +187,59 @@ def load_environment_table(path: Path | str | None = None) -> EnvironmentTable |
     return _CACHE[key]
 
 
-def environment_row_check_factory(peaks: Sequence, table: EnvironmentTable, margin: float = 4.0):
+class EnvironmentRule:
+    """Generator hook rejecting carbons that no line of their multiplicity explains.
+
+    Call the rule with an atom-type distribution to get the per-atom check
+    for :func:`elucidate.generate.assembly.bond_matrices`.  ``checked`` and
+    ``rejected`` count the closed carbons examined and refused.
+    """
+
+    def __init__(self, peaks: Sequence, table: EnvironmentTable, margin: float = 4.0):
+        self.table = table
+        self.margin = margin
+        self._by_h: dict[int | None, list[float]] = defaultdict(list)
+        for p in peaks:
+            self._by_h[p.hydrogens].append(p.shift)
+        self._unknown = self._by_h.get(None, [])
+        self._verdicts: dict[tuple[int, tuple[str, str]], bool] = {}
+        self.checked = 0
+        self.rejected = 0
+
+    def allowed(self, h: int, keys: tuple[str, str]) -> bool:
+        """Whether a carbon with ``h`` H and these keys fits some line."""
+        v = self._verdicts.get((h, keys))
+        if v is None:
+            s = self.table.lookup(keys)
+            if s is None:
+                v = True
+            else:
+                lo, hi = s[1] - self.margin, s[3] + self.margin
+                v = any(lo <= x <= hi for x in self._by_h.get(h, []) + self._unknown)
+            self._verdicts[(h, keys)] = v
+        return v
+
+    def __call__(self, dist):
+        labels = [_label(t.element, t.charge) for t in dist]
+        hs = [t.hydrogens for t in dist]
+        carbons = [t.element == "C" for t in dist]
+        n = len(dist)
+
+        def check(i: int, m) -> bool:
+            if not carbons[i]:
+                return True
+            row = m[i]
+            nbs = [(labels[j], hs[j], row[j]) for j in range(n) if row[j]]
+            self.checked += 1
+            ok = self.allowed(hs[i], environment_keys(hs[i], nbs))
+            if not ok:
+                self.rejected += 1
+            return ok
+
+        return check
+
+
+def environment_row_check_factory(peaks: Sequence, table: EnvironmentTable, margin: float = 4.0) -> EnvironmentRule:
     """Make the generator hook that rejects carbons no line can explain.
 
     Parameters
@@ -197,40 +251,7 @@ def environment_row_check_factory(peaks: Sequence, table: EnvironmentTable, marg
 
     Returns
     -------
-    callable(dist) -> callable(i, matrix) -> bool
+    EnvironmentRule
+        Callable on an atom-type distribution, returning the per-atom check.
     """
-    by_h: dict[int | None, list[float]] = defaultdict(list)
-    for p in peaks:
-        by_h[p.hydrogens].append(p.shift)
-    unknown = by_h.get(None, [])
-    verdicts: dict[tuple[str, str], bool] = {}
-
-    def allowed(h: int, keys: tuple[str, str]) -> bool:
-        v = verdicts.get(keys)
-        if v is None:
-            s = table.lookup(keys)
-            if s is None:
-                v = True
-            else:
-                lo, hi = s[1] - margin, s[3] + margin
-                shifts = by_h.get(h, []) + unknown
-                v = any(lo <= x <= hi for x in shifts)
-            verdicts[keys] = v
-        return v
-
-    def factory(dist):
-        labels = [_label(t.element, t.charge) for t in dist]
-        hs = [t.hydrogens for t in dist]
-        carbons = [t.element == "C" for t in dist]
-        n = len(dist)
-
-        def check(i: int, m) -> bool:
-            if not carbons[i]:
-                return True
-            row = m[i]
-            nbs = [(labels[j], hs[j], row[j]) for j in range(n) if row[j]]
-            return allowed(hs[i], environment_keys(hs[i], nbs))
-
-        return check
-
-    return factory
+    return EnvironmentRule(peaks, table, margin)
