@@ -46,11 +46,24 @@ def solved(tmp_path_factory):
 
 
 def test_committed_spectra_are_what_the_script_writes(tmp_path):
+    # Same header records and the same picked lines (byte equality would also
+    # depend on numpy's random stream, which numpy may change between versions).
     paths = _maker().main(tmp_path)
     for key in ("c13", "dept135", "dept90"):
         committed = SCENARIO / META["peaks" if key == "c13" else key]
         assert paths[key].name == committed.name
-        assert paths[key].read_bytes() == committed.read_bytes()
+
+        def header(path):
+            lines = path.read_text().splitlines()
+            return [ln for ln in lines if ln.startswith("##") and not ln.startswith(("##YFACTOR", "##FIRSTY",
+                                                                                      "##MINY", "##MAXY"))]
+        assert header(paths[key]) == header(committed)
+    fresh = read_peaks(str(paths["c13"]), dept135=str(paths["dept135"]), dept90=str(paths["dept90"]))
+    kept = read_peaks(str(SCENARIO / META["peaks"]), dept135=str(SCENARIO / META["dept135"]),
+                      dept90=str(SCENARIO / META["dept90"]))
+    assert len(fresh) == len(kept)
+    for a, b in zip(fresh, kept):
+        assert abs(a.shift - b.shift) <= 0.05 and a.hydrogens == b.hydrogens
 
 
 def test_picked_lines_and_multiplicities_match_the_table():
