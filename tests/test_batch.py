@@ -130,3 +130,25 @@ def test_batch_on_dask_local_cluster_gives_same_summary(sheet, tmp_path):
         a = json.loads((tmp_path / "local" / f"{sid}.json").read_text())
         b = json.loads((tmp_path / "dask" / f"{sid}.json").read_text())
         assert _science(a) == _science(b)
+
+
+def test_batch_scenario(monkeypatch, tmp_path):
+    # scenarios/larchfield-batch: invented lab; shift sources named in its scenario.json
+    root = __import__("pathlib").Path(__file__).resolve().parents[1]
+    meta = json.loads((root / "scenarios" / "larchfield-batch" / "scenario.json").read_text())
+    args = list(meta["command"])
+    args[args.index("--output") + 1] = str(tmp_path / "results")
+    args[args.index("--time-limit") + 1] = "5"
+    monkeypatch.chdir(root)
+    res = CliRunner().invoke(main, args)
+    assert res.exit_code == 1  # the row without a formula
+    rows = {r["id"]: r for r in csv.DictReader(open(tmp_path / "results" / "summary.csv", newline=""))}
+    for sid, want in meta["expect"].items():
+        row = rows[sid]
+        assert row["status"] == want["status"], (sid, row)
+        if "verdict" in want:
+            assert row["verdict"] == want["verdict"]
+        if "verdict_not" in want:
+            assert row["verdict"] not in ("", want["verdict_not"])
+        if "top_candidate" in want:
+            assert row["top_candidate"] == want["top_candidate"]

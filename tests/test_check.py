@@ -141,3 +141,17 @@ def test_positional_isomers_of_chlorotoluene():
     from rdkit.Chem.rdMolDescriptors import CalcMolFormula
 
     assert {CalcMolFormula(Chem.MolFromSmiles(s)) for s in iso} == {"C7H7Cl"}
+
+
+def test_verify_scenario(monkeypatch):
+    # scenarios/brackenridge-verify: invented lab; 4-methylphenol shifts from memory of standard tables
+    root = __import__("pathlib").Path(__file__).resolve().parents[1]
+    meta = json.loads((root / "scenarios" / "brackenridge-verify" / "scenario.json").read_text())
+    args = list(meta["command"])
+    args[args.index("--time-limit") + 1] = "3"
+    monkeypatch.chdir(root)
+    res = CliRunner().invoke(main, args + ["--format", "json"])
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.stdout)
+    assert data["verdict"] != meta["expect"]["verdict_not"]
+    assert data["alternatives"][0]["smiles"] == meta["expect"]["better_alternative"]

@@ -73,3 +73,16 @@ def test_fragment_scaffold_ignores_hydrogens():
     q = parse_scaffold(murcko_scaffold(Chem.MolFromSmiles("COc1c[nH]c(=O)[nH]c1=O")))
     assert Chem.MolFromSmiles("Cn1cc(OC)c(=O)[nH]c1=O").HasSubstructMatch(q)
     assert not Chem.MolFromSmiles("COc1ccc(=O)[nH]c1").HasSubstructMatch(q)
+
+
+def test_byproduct_scenario(monkeypatch):
+    # scenarios/saltmarsh-byproduct: invented lab; 2-methylphenol shifts from memory of standard tables
+    root = __import__("pathlib").Path(__file__).resolve().parents[1]
+    meta = json.loads((root / "scenarios" / "saltmarsh-byproduct" / "scenario.json").read_text())
+    monkeypatch.chdir(root)
+    res = CliRunner().invoke(main, list(meta["command"]) + ["--format", "json", "--top", "50"])
+    assert res.exit_code == 0, res.output
+    data = json.loads(res.stdout)
+    assert data["complete"] and data["candidates"][0]["smiles"] == meta["expect"]["top"]
+    q = Chem.MolFromSmiles(meta["expect"]["all_contain"])
+    assert all(Chem.MolFromSmiles(c["smiles"]).HasSubstructMatch(q) for c in data["candidates"])
