@@ -192,3 +192,8 @@ def test_batch_sample_block_is_shown(data):
     doc = {"sample": {"id": "KC-2211", "row": 3, "status": "ok", "fingerprint": "abc123"}, **data}
     page = render_html(doc)
     assert "<dd>KC-2211</dd>" in page and "abc123" not in page
+
+
+def test_no_candidates_is_said(data):
+    page = render_html(dict(data, candidates=[]))
+    assert "No structure fits" in page and not _svgs(page)
