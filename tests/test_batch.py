@@ -152,3 +152,15 @@ def test_batch_scenario(monkeypatch, tmp_path):
             assert row["verdict"] not in ("", want["verdict_not"])
         if "top_candidate" in want:
             assert row["top_candidate"] == want["top_candidate"]
+
+
+def test_html_reports_written_when_asked(sheet, tmp_path):
+    pytest.importorskip("elucidate.report.html", reason="HTML report module not in this installation")
+    out = tmp_path / "out"
+    run_batch(sheet, out, workers=1, options=OPTIONS)
+    assert not list(out.glob("*.html"))
+    again = run_batch(sheet, out, workers=1, options=BatchOptions(time_limit=5.0, top=5, html=True))
+    assert again.skipped == 4 and again.ran == 1  # results reused, pages rendered from the saved JSON
+    pages = sorted(p.stem for p in out.glob("*.html"))
+    assert pages == ["QC-1", "QC-2", "QC-4", "QC-5"]
+    assert "hypothes" in (out / "QC-2.html").read_text().lower()

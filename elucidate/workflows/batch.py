@@ -193,8 +193,9 @@ def _fingerprint(sample: Sample, options: BatchOptions) -> str:
     path = Path(peaks)
     if os.path.isabs(peaks) and path.is_file():
         peaks = hashlib.sha256(path.read_bytes()).hexdigest()
-    blob = json.dumps([__version__, sample.formula, peaks, sample.expected, sample.solvent,
-                       asdict(options)], sort_keys=True)
+    settings = {k: v for k, v in asdict(options).items() if k != "html"}  # html does not change results
+    blob = json.dumps([__version__, sample.formula, peaks, sample.expected, sample.solvent, settings],
+                      sort_keys=True)
     return hashlib.sha256(blob.encode()).hexdigest()[:16]
 
 
@@ -339,6 +340,9 @@ def run_batch(
             if done is not None:
                 docs[s.row] = done
                 skipped += 1
+                html_path = out / f"{s.filename}.html"
+                if render is not None and not html_path.exists():  # asked for HTML only now
+                    _write_atomic(html_path, render(done))
                 continue
         todo.append(s)
     total = len(samples)
