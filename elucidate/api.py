@@ -153,7 +153,8 @@ def to_dict(result) -> dict | list:
 
     if isinstance(result, SolveResult):
         data = result_to_dict(result)
-        data.setdefault("settings", {})["scaffold"] = result.settings.scaffold
+        data.setdefault("settings", {}).setdefault("scaffold", result.settings.scaffold)
+        data.setdefault("peaks_provenance", list(getattr(result.peaks, "provenance", ())))  # as the CLI
         return data
     if isinstance(result, CheckResult):
         return check_to_dict(result)
