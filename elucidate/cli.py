@@ -442,8 +442,12 @@ def batch(samples, output, workers, time_limit, top, force, html, cluster):
             filled = int(width * done / max(total, 1))
             click.echo(f"\r  [{'#' * filled}{'.' * (width - filled)}] {done}/{total} {sid[:20]:<20} {status:<5}",
                        err=True, nl=False)
-    report = run_batch(samples, output, workers=workers, force=force, cluster=cluster,
-                       options=BatchOptions(time_limit=time_limit, top=top, html=html), progress=bar)
+    try:
+        report = run_batch(samples, output, workers=workers, force=force, cluster=cluster,
+                           options=BatchOptions(time_limit=time_limit, top=top, html=html), progress=bar)
+    except (KeyboardInterrupt, click.Abort):
+        raise InputError("batch interrupted; finished samples are kept in the output folder; run the "
+                         "same command again to resume") from None
     if bar is not None:
         click.echo("", err=True)
     click.echo(f"{len(report.rows)} samples: {report.ran} run, {report.skipped} already done, "

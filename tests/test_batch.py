@@ -164,3 +164,18 @@ def test_html_reports_written_when_asked(sheet, tmp_path):
     pages = sorted(p.stem for p in out.glob("*.html"))
     assert pages == ["QC-1", "QC-2", "QC-4", "QC-5"]
     assert "hypothes" in (out / "QC-2.html").read_text().lower()
+
+
+def test_interrupted_parallel_batch_resumes(sheet, tmp_path):
+    out = tmp_path / "out"
+
+    def stop_after_first(done, total, sid, status):
+        raise KeyboardInterrupt
+
+    with pytest.raises(KeyboardInterrupt):
+        run_batch(sheet, out, workers=2, options=OPTIONS, progress=stop_after_first)
+    done_first = len(list(out.glob("*.json")))
+    assert done_first == 1
+    resumed = run_batch(sheet, out, workers=2, options=OPTIONS)
+    assert resumed.skipped == 1 and resumed.ran == 4 and resumed.failed == 1
+    assert len(list(out.glob("*.json"))) == 4

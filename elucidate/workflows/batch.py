@@ -374,10 +374,15 @@ def run_batch(
         from ..predict.model import load_default_model
 
         load_default_model()  # once here: forked workers inherit the loaded table
-        with ProcessPoolExecutor(max_workers=min(workers, len(todo))) as pool:
+        pool = ProcessPoolExecutor(max_workers=min(workers, len(todo)))
+        try:
             futures = {pool.submit(run_sample, s, options): s for s in todo}
             for fut in as_completed(futures):
                 finish(fut.result(), futures[fut])
+        except BaseException:  # interrupted: drop queued samples, keep the finished files
+            pool.shutdown(wait=False, cancel_futures=True)
+            raise
+        pool.shutdown()
 
     rows = tuple(_summary_row(docs[s.row]) for s in samples)
     buf = io.StringIO()
