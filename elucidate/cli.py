@@ -374,7 +374,7 @@ def bench(cases, mode, limit, time_limit, output):
               help="Molecular formula from HRMS (default: the expected structure's).")
 @click.option("--solvent", default=None, help="Deuterated solvent whose lines are dropped, e.g. CDCl3.")
 @click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=30.0, show_default=True,
-              help="Seconds for the search among isomers (half for the same scaffold).")
+              help="Seconds for the isomer search (positional isomers, same scaffold, open formula).")
 @click.option("--alternatives", type=click.IntRange(min=0), default=5, show_default=True,
               help="Largest number of better-fitting isomers listed.")
 @click.option("--no-search", is_flag=True, help="Judge the absolute fit only; skip the isomer search.")
