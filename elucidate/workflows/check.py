@@ -294,7 +294,7 @@ def _search_alternatives(formula, peaks, expected: Chem.Mol, expected_cost: floa
 
     stages = []
     if scaffold:
-        stages.append(("same scaffold", scaffold, time_limit / 3))
+        stages.append(("same scaffold", scaffold, 0.35 * time_limit))
     stages.append(("open formula", None, None))
     for name, scaf, budget in stages:
         left = deadline - time.monotonic()
@@ -355,7 +355,7 @@ def check_structure(
         Deuterated solvent whose lines are dropped first.
     time_limit : float
         Seconds for the isomer search: positional isomers (up to a quarter),
-        same scaffold (a third), open formula (the rest).
+        same scaffold (35 %), open formula (the rest).
     alternatives : int
         Largest number of better-fitting isomers listed.
     search : bool
