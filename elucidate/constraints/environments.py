@@ -52,9 +52,12 @@ __all__ = [
 ]
 
 DEFAULT_TABLE_PATH = Path(__file__).resolve().parent.parent / "data" / "environments.json.gz"
-#: Quantiles kept per environment (lower, median, upper).
-_QUANTILES = (0.005, 0.5, 0.995)
+#: Quantiles kept per environment: range ends, median, quartiles.
+_QUANTILES = (0.005, 0.5, 0.995, 0.25, 0.75)
 _MIN_COUNT = 3
+#: Student-t degrees of freedom and spread floor (ppm) of environment costs.
+_NU = 3.0
+_SPREAD_FLOOR = 1.5
 
 
 def _label(element: str, charge: int) -> str:
@@ -118,7 +121,10 @@ def kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
 
 @dataclass(frozen=True)
 class EnvironmentTable:
-    """Shift quantiles per environment key: ``{key: (count, lo, median, hi)}``."""
+    """Shift statistics per environment key.
+
+    ``stats[key] = [count, q0.5%, median, q99.5%, q25%, q75%]``.
+    """
 
     stats: dict
     provenance: dict
@@ -164,8 +170,8 @@ def build_environment_table(
     stats = {}
     for k in sorted(values):
         v = np.asarray(values[k])
-        lo, med, hi = np.quantile(v, _QUANTILES)
-        stats[k] = [int(len(v)), round(float(lo), 2), round(float(med), 2), round(float(hi), 2)]
+        qs = np.quantile(v, _QUANTILES)
+        stats[k] = [int(len(v))] + [round(float(q), 2) for q in qs]
     prov = dict(provenance or {})
     prov.update({"molecules": n_mols, "environments": len(stats), "quantiles": list(_QUANTILES)})
     return EnvironmentTable(stats, prov)
@@ -193,6 +199,13 @@ class EnvironmentRule:
     Call the rule with an atom-type distribution to get the per-atom check
     for :func:`elucidate.generate.assembly.bond_matrices`.  ``checked`` and
     ``rejected`` count the closed carbons examined and refused.
+
+    Fit-steered search: with ``steer`` set, each closed carbon adds its
+    :meth:`cost` to a running sum along the search path; a partial structure
+    whose sum exceeds ``bound`` is abandoned.  Costs are non-negative, so the
+    sum of a partial structure is a lower bound of every completion's
+    *approximate cost* (the sum over all carbons), and pruning at ``bound``
+    never loses a structure whose approximate cost is at most ``bound``.
     """
 
     def __init__(self, peaks: Sequence, table: EnvironmentTable, margin: float = 4.0):
@@ -203,8 +216,17 @@ class EnvironmentRule:
             self._by_h[p.hydrogens].append(p.shift)
         self._unknown = self._by_h.get(None, [])
         self._verdicts: dict[tuple[int, tuple[str, str]], bool] = {}
+        self._costs: dict[tuple[int, tuple[str, str]], float] = {}
         self.checked = 0
         self.rejected = 0
+        #: With ``steer`` on, partial structures whose summed carbon costs
+        #: exceed ``bound`` are abandoned (branch and bound); the pipeline
+        #: lowers the bound as better structures are found.
+        self.steer = False
+        self.bound = float("inf")
+        self.bound_pruned = 0
+        #: Summed cost of the last complete structure accepted.
+        self.last_total = 0.0
 
     def allowed(self, h: int, keys: tuple[str, str]) -> bool:
         """Whether a carbon with ``h`` H and these keys fits some line."""
@@ -219,22 +241,54 @@ class EnvironmentRule:
             self._verdicts[(h, keys)] = v
         return v
 
+    def cost(self, h: int, keys: tuple[str, str]) -> float:
+        """Approximate cost of a carbon: the smallest negative log-likelihood
+        excess over the lines it may sit under (0 for unseen environments).
+
+        The environment's shift distribution is a Student-t around its
+        median with the interquartile spread (floored at 1.5 ppm); the cost
+        is ``(nu + 1) / 2 * log(1 + z**2 / nu)`` (0 at the median), so sums
+        over carbons only grow as a structure is completed.
+        """
+        c = self._costs.get((h, keys))
+        if c is None:
+            s = self.table.lookup(keys)
+            shifts = self._by_h.get(h, []) + self._unknown
+            if s is None or len(s) < 6 or not shifts:
+                c = 0.0
+            else:
+                med = s[2]
+                spread = max((s[5] - s[4]) / 1.349, _SPREAD_FLOOR)
+                z = min(abs(x - med) for x in shifts) / spread
+                c = 0.5 * (_NU + 1.0) * float(np.log1p(z * z / _NU))
+            self._costs[(h, keys)] = c
+        return c
+
     def __call__(self, dist):
         labels = [_label(t.element, t.charge) for t in dist]
         hs = [t.hydrogens for t in dist]
         carbons = [t.element == "C" for t in dist]
         n = len(dist)
+        partial = [0.0] * n
 
         def check(i: int, m) -> bool:
+            before = partial[i - 1] if i else 0.0
             if not carbons[i]:
-                return True
-            row = m[i]
-            nbs = [(labels[j], hs[j], row[j]) for j in range(n) if row[j]]
-            self.checked += 1
-            ok = self.allowed(hs[i], environment_keys(hs[i], nbs))
-            if not ok:
-                self.rejected += 1
-            return ok
+                partial[i] = before
+            else:
+                row = m[i]
+                keys = environment_keys(hs[i], [(labels[j], hs[j], row[j]) for j in range(n) if row[j]])
+                self.checked += 1
+                if not self.allowed(hs[i], keys):
+                    self.rejected += 1
+                    return False
+                partial[i] = before + (self.cost(hs[i], keys) if self.steer else 0.0)
+                if partial[i] > self.bound:
+                    self.bound_pruned += 1
+                    return False
+            if i == n - 1:
+                self.last_total = partial[i]
+            return True
 
         return check
 

@@ -30,6 +30,7 @@ def result_to_dict(result: SolveResult) -> dict:
         "formula": result.formula.hill,
         "dbe": result.dbe,
         "complete": result.complete,
+        "completeness": {"status": result.completeness[0], "cost_bound": result.completeness[1]},
         "candidates_generated": result.candidates_generated,
         "elapsed_s": _num(result.elapsed_s, 3),
         "warnings": list(result.warnings),

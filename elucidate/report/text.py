@@ -8,7 +8,14 @@ __all__ = ["render_text"]
 def render_text(data: dict) -> str:
     """Render the plain-data result (see :mod:`.serialize`) as text."""
     out = []
-    status = "complete" if data["complete"] else "INCOMPLETE (stopped at the time limit)"
+    comp = data.get("completeness") or {"status": "complete" if data["complete"] else "stopped at the time limit",
+                                         "cost_bound": None}
+    if comp["status"] == "complete":
+        status = "complete"
+    elif comp["status"] == "complete up to cost":
+        status = f"complete up to approximate cost {comp['cost_bound']}"
+    else:
+        status = "INCOMPLETE (stopped at the time limit)"
     out.append(
         f"formula {data['formula']}  DBE {data['dbe']}  lines {len(data['peaks'])}  "
         f"structures ranked {data['candidates_generated']}  search {status}  "
@@ -56,8 +63,14 @@ def render_text(data: dict) -> str:
         for w in data["warnings"]:
             out.append(f"  - {w}")
     out.append("")
-    if data["complete"]:
+    if comp["status"] == "complete":
         out.append("The search was exhaustive under the stated constraints.")
+    elif comp["status"] == "complete up to cost":
+        out.append(
+            "The search was exhaustive up to an approximate cost of "
+            f"{comp['cost_bound']}: every structure not listed fits the lines worse than that "
+            "by its carbon environments."
+        )
     else:
         out.append("The search was cut short: structures may be missing from this list.")
     out.append(data["caution"])
