@@ -36,7 +36,7 @@ import numpy as np
 from ortools.graph.python import min_cost_flow
 
 from .hungarian import solve_assignment
-from .likelihood import shift_cost
+from .likelihood import shift_cost, shift_cost_matrix
 
 __all__ = [
     "CarbonClass",
@@ -143,56 +143,51 @@ def assign_lines(peaks: Sequence, classes: Sequence[CarbonClass]) -> Assignment:
 
 def _assign_flow(peaks, classes) -> Assignment:
     nc, nl = len(classes), len(peaks)
-    cost = np.full((nc, nl), np.nan)
-    for c, cls in enumerate(classes):
-        for l, pk in enumerate(peaks):
-            if _compatible(pk, cls):
-                cost[c, l] = shift_cost(pk.shift, cls.shift, cls.sigma)
-    split_cap = [min(len(cls.atoms) - 1, 2) for cls in classes]
-    total_split = sum(split_cap)
+    obs = np.array([pk.shift for pk in peaks], dtype=float)
+    line_h = np.array([-1 if pk.hydrogens is None else pk.hydrogens for pk in peaks])
+    cls_h = np.array([c.hydrogens for c in classes])
+    compat = (line_h[None, :] == -1) | (line_h[None, :] == cls_h[:, None])
+    cost = shift_cost_matrix(obs, [c.shift for c in classes], [c.sigma for c in classes])
+    cost[~compat] = np.nan
+    split_cap = np.array([min(len(c.atoms) - 1, 2) for c in classes], dtype=np.int64)
+    total_split = int(split_cap.sum())
 
     source, sink = 0, 1
-    cnode = [2 + c for c in range(nc)]
-    lnode = [2 + nc + l for l in range(nl)]
-    tails, heads, caps, costs = [], [], [], []
-
-    def arc(t, h, cap, cst):
-        tails.append(t)
-        heads.append(h)
-        caps.append(cap)
-        costs.append(int(round(cst)))
-        return len(tails) - 1
-
-    for c in range(nc):
-        arc(source, cnode[c], 1, -_FORCE)
-        if split_cap[c]:
-            arc(source, cnode[c], split_cap[c], SPLIT_COST * _SCALE)
+    cnode = 2 + np.arange(nc)
+    lnode = 2 + nc + np.arange(nl)
+    pc, pl = np.nonzero(compat)
+    has_split = np.nonzero(split_cap)[0]
+    tails = [np.zeros(nc, np.int64), np.zeros(len(has_split), np.int64), cnode[pc], lnode, lnode]
+    heads = [cnode, cnode[has_split], lnode[pl], np.full(nl, sink), np.full(nl, sink)]
+    caps = [np.ones(nc, np.int64), split_cap[has_split], np.ones(len(pc), np.int64),
+            np.ones(nl, np.int64), np.full(nl, nc, np.int64)]
+    costs = [np.full(nc, -_FORCE, np.int64), np.full(len(has_split), round(SPLIT_COST * _SCALE), np.int64),
+             np.round(cost[pc, pl] * _SCALE).astype(np.int64),
+             np.full(nl, round(-UNFILLED_COST * _SCALE), np.int64),
+             np.full(nl, round(OVERLAP_COST * _SCALE), np.int64)]
     if total_split:
-        arc(source, sink, total_split, 0)
-    pair_arcs = []
-    for c in range(nc):
-        for l in range(nl):
-            if not math.isnan(cost[c, l]):
-                pair_arcs.append((arc(cnode[c], lnode[l], 1, cost[c, l] * _SCALE), c, l))
-    fill_arcs = []
-    for l in range(nl):
-        fill_arcs.append(arc(lnode[l], sink, 1, -UNFILLED_COST * _SCALE))
-        arc(lnode[l], sink, nc, OVERLAP_COST * _SCALE)
+        tails.append(np.array([source]))
+        heads.append(np.array([sink]))
+        caps.append(np.array([total_split]))
+        costs.append(np.array([0]))
+    first_pair = nc + len(has_split)
 
     flow = min_cost_flow.SimpleMinCostFlow()
-    flow.add_arcs_with_capacity_and_unit_cost(
-        np.array(tails), np.array(heads), np.array(caps), np.array(costs, dtype=np.int64)
+    arcs = flow.add_arcs_with_capacity_and_unit_cost(
+        np.concatenate(tails), np.concatenate(heads), np.concatenate(caps), np.concatenate(costs)
     )
     supply = nc + total_split
     flow.set_nodes_supplies(np.array([source, sink]), np.array([supply, -supply]))
     status = flow.solve()
     if status != flow.OPTIMAL:
         return Assignment((), math.inf, 0, 0, tuple(range(nl)))
+    flows = flow.flows(arcs)
+    used = np.nonzero(flows[first_pair:first_pair + len(pc)])[0]
+    pair_arcs = [(None, int(pc[k]), int(pl[k])) for k in used]
 
     per_class: dict[int, list[int]] = {}
-    for a, c, l in pair_arcs:
-        if flow.flow(a):
-            per_class.setdefault(c, []).append(l)
+    for _, c, l in pair_arcs:
+        per_class.setdefault(c, []).append(l)
     if len(per_class) < nc:  # some class had no compatible line
         return Assignment((), math.inf, 0, 0, tuple(range(nl)))
     # Decide which entry of each line is its primary one (the best fitting),

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import math
 
-__all__ = ["shift_cost", "NU"]
+__all__ = ["shift_cost", "shift_cost_matrix", "NU"]
 
 #: Degrees of freedom of the Student-t error model.
 NU = 3.0
@@ -33,3 +33,20 @@ def shift_cost(observed: float, predicted: float, sigma: float) -> float:
     s = max(float(sigma), _SIGMA_FLOOR)
     z = (observed - predicted) / s
     return math.log(s) + 0.5 * (NU + 1.0) * math.log1p(z * z / NU)
+
+
+def shift_cost_matrix(observed, predicted, sigma):
+    """:func:`shift_cost` for every (predicted, observed) pair at once.
+
+    Returns an array of shape ``(len(predicted), len(observed))``.
+
+    >>> import numpy as np
+    >>> m = shift_cost_matrix(np.array([100.0, 50.0]), np.array([100.0]), np.array([1.0]))
+    >>> m.shape, round(float(m[0, 0]), 3)
+    ((1, 2), 0.0)
+    """
+    import numpy as np
+
+    s = np.maximum(np.asarray(sigma, dtype=float), _SIGMA_FLOOR)[:, None]
+    z = (np.asarray(observed, dtype=float)[None, :] - np.asarray(predicted, dtype=float)[:, None]) / s
+    return np.log(s) + 0.5 * (NU + 1.0) * np.log1p(z * z / NU)
