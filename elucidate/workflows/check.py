@@ -549,8 +549,11 @@ def render_check_text(data: dict) -> str:
     for r in data["reasons"]:
         out.append(f"  - {r}")
     fit = data["fit"]
-    out.append(f"Fit: MAE {fit['mae_ppm']} ppm, largest deviation {fit['max_error_ppm']} ppm, "
-               f"cost {fit['cost']}")
+    if fit["cost"] is None:
+        out.append("Fit: no assignment possible")
+    else:
+        out.append(f"Fit: MAE {fit['mae_ppm']} ppm, largest deviation {fit['max_error_ppm']} ppm, "
+                   f"cost {fit['cost']}")
     out.append("")
     out.append(f"{'line':>5} {'obs':>8} {'mult':>4} {'pred':>8} {'dev':>7} {'z':>6}  atoms  note")
     for a in data["assignment"]:
@@ -567,7 +570,8 @@ def render_check_text(data: dict) -> str:
         for a in data["alternatives"]:
             mark = "clearly better" if a["clearly_better"] else "slightly better"
             scaf = "same scaffold" if a["same_scaffold"] else "other scaffold"
-            out.append(f"  {a['rank']:>2}. {a['smiles']}  MAE {a['mae_ppm']} ppm, delta {a['delta_cost']}, "
+            delta = "inf" if a["delta_cost"] is None else a["delta_cost"]
+            out.append(f"  {a['rank']:>2}. {a['smiles']}  MAE {a['mae_ppm']} ppm, delta {delta}, "
                        f"p(pair) {a['pairwise_probability']}  [{mark}; {scaf}]")
     elif data["search"]["stages"]:
         out.append("No isomer found that fits better.")
