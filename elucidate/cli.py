@@ -457,5 +457,38 @@ def batch(samples, output, workers, time_limit, top, force, html, cluster):
             click.echo(f"  {row['id']}: {row['message']}", err=True)
     return 1 if report.failed else 0
 
+# ----------------------------------------------------------------- tables
+@main.command("build-table")
+@click.option("--data", "data_path", required=True, type=click.Path(dir_okay=False),
+              help="Training spectra (JSON lines, optionally .gz), e.g. ../shared/data/train_spectra.jsonl.gz.")
+@click.option("--output", "output_path", type=click.Path(dir_okay=False), default=None,
+              help="Shift table to write (default: the package's shipped table).")
+@click.option("--environment-output", "env_path", type=click.Path(dir_okay=False), default=None,
+              help="Environment table to write (default: the package's shipped table).")
+@click.option("--limit", type=click.IntRange(min=1), default=None, help="Use only the first N spectra (trial).")
+@click.option("--rounds", type=click.IntRange(min=1), default=None, help="Assignment re-estimation rounds.")
+def build_table(data_path, output_path, env_path, limit, rounds):
+    """Rebuild the shipped tables from training spectra (deterministic; ~10-15 min).
+
+    Example: elucidate build-table --data ../shared/data/train_spectra.jsonl.gz
+    """
+    from .tables import build_all_tables
+
+    headers = build_all_tables(data_path, output_path, env_path, limit=limit, rounds=rounds,
+                               progress=lambda msg: click.echo(msg, err=True))
+    st = headers["shift_table"]
+    click.echo(json.dumps({"counts": st.get("counts"), "loo_mae_ppm": st.get("loo_mae_ppm"),
+                           "environments": headers["environment_table"].get("environments")}, indent=1))
+
+
+def _register_shift_bench():
+    from .predict.evaluate import predictor_bench_command
+
+    main.add_command(predictor_bench_command, "bench-shifts")
+
+
+_register_shift_bench()
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

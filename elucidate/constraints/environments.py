@@ -16,10 +16,12 @@ under any line of matching multiplicity is abandoned early
 * level 2: the full key described above;
 * level 1: the same without the neighbours' hydrogen counts.
 
-A carbon is allowed under a line when the deepest known level has a range
-(widened by ``margin`` ppm) that covers the line's shift.  Unseen
-environments are always allowed: the rule only removes what the data
-clearly contradicts.
+A carbon is allowed under a line when the deepest level with at least 20
+examples has an observed range (minimum to maximum, widened by ``margin``
+ppm) that covers the line's shift.  Rarer or unseen environments are always
+allowed: the hard rule only removes what the data clearly contradict.  The
+finer information (median, quartiles) feeds the soft *approximate cost* of
+the fit-steered search instead (:meth:`EnvironmentRule.cost`).
 
 Kekulé structures: the generator builds aromatic rings as alternating
 single/double bonds, so the table is filled from *every* Kekulé structure
@@ -52,9 +54,11 @@ __all__ = [
 ]
 
 DEFAULT_TABLE_PATH = Path(__file__).resolve().parent.parent / "data" / "environments.json.gz"
-#: Quantiles kept per environment: range ends, median, quartiles.
-_QUANTILES = (0.005, 0.5, 0.995, 0.25, 0.75)
-_MIN_COUNT = 3
+#: Quantiles kept per environment: 0.5 %, median, 99.5 %, quartiles, min, max.
+_QUANTILES = (0.005, 0.5, 0.995, 0.25, 0.75, 0.0, 1.0)
+#: Examples an environment needs before it may exclude anything (below
+#: that, the coarser level decides, or nothing is excluded).
+_MIN_COUNT = 20
 #: Student-t degrees of freedom and spread floor (ppm) of environment costs.
 _NU = 3.0
 _SPREAD_FLOOR = 1.5
@@ -123,7 +127,7 @@ def kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
 class EnvironmentTable:
     """Shift statistics per environment key.
 
-    ``stats[key] = [count, q0.5%, median, q99.5%, q25%, q75%]``.
+    ``stats[key] = [count, q0.5%, median, q99.5%, q25%, q75%, min, max]``.
     """
 
     stats: dict
@@ -236,7 +240,8 @@ class EnvironmentRule:
             if s is None:
                 v = True
             else:
-                lo, hi = s[1] - self.margin, s[3] + self.margin
+                # the whole observed range: a hard rule must be conservative
+                lo, hi = s[6] - self.margin, s[7] + self.margin
                 v = any(lo <= x <= hi for x in self._by_h.get(h, []) + self._unknown)
             self._verdicts[(h, keys)] = v
         return v
