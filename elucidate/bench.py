@@ -31,12 +31,19 @@ __all__ = ["read_cases", "run_bench", "format_bench_table", "BANDS"]
 BANDS = ((4, 8), (9, 12), (13, 16), (17, 22))
 
 
-def read_cases(path: str, limit: int | None = None) -> list[dict]:
-    """Read and validate a JSON-lines case file."""
+def read_cases(path: str, limit: int | None = None, heavy: tuple[int, int] | None = None,
+               every: int = 1) -> list[dict]:
+    """Read and validate a JSON-lines case file.
+
+    ``heavy`` keeps cases whose formula has that many heavy atoms (inclusive
+    range); ``every`` keeps every n-th remaining case; ``limit`` stops after
+    that many cases.
+    """
     p = Path(path)
     if not p.is_file():
         raise InputError(f"case file {path!r} not found; give a JSON-lines file of cases")
     cases = []
+    kept = 0
     with p.open(encoding="utf-8") as fh:
         for lineno, line in enumerate(fh, 1):
             if not line.strip():
@@ -49,6 +56,13 @@ def read_cases(path: str, limit: int | None = None) -> list[dict]:
             if missing:
                 raise InputError(f"{path}: line {lineno} lacks {', '.join(missing)}; each case needs formula, peaks, answer")
             case.setdefault("id", f"line-{lineno}")
+            if heavy is not None:
+                n_heavy = parse_formula(case["formula"]).heavy_atoms
+                if not heavy[0] <= n_heavy <= heavy[1]:
+                    continue
+            kept += 1
+            if (kept - 1) % every:
+                continue
             cases.append(case)
             if limit is not None and len(cases) >= limit:
                 break
@@ -79,6 +93,8 @@ def run_bench(
     *,
     mode: str = "mult",
     limit: int | None = None,
+    heavy: tuple[int, int] | None = None,
+    every: int = 1,
     time_limit: float = 60.0,
     keep: int = 100,
     progress: Callable[[str], None] | None = None,
@@ -87,7 +103,7 @@ def run_bench(
     if mode not in ("mult", "plain", "count"):
         raise InputError(f"mode {mode!r} unknown; use mult, plain or count")
     rows = []
-    cases = read_cases(path, limit)
+    cases = read_cases(path, limit, heavy, every)
     settings = SolveSettings(time_limit=time_limit, top=keep, keep=keep)
     for i, case in enumerate(cases, 1):
         formula = parse_formula(case["formula"])

@@ -345,10 +345,14 @@ def predict(smiles, input_file, fmt):
 @click.option("--mode", type=click.Choice(["mult", "plain", "count"]), default="mult", show_default=True,
               help="mult: multiplicities, no counts; plain: shifts only; count: both.")
 @click.option("--limit", type=click.IntRange(min=1), default=None, help="Use only the first N cases.")
+@click.option("--heavy", default=None, metavar="LO-HI",
+              help="Only cases with LO..HI heavy atoms, e.g. 4-10.")
+@click.option("--every", type=click.IntRange(min=1), default=1, show_default=True,
+              help="Use every N-th case (a spread-out sample).")
 @click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=60.0, show_default=True,
               help="Seconds per case.")
 @click.option("--output", "-o", default=None, help="Also write per-case results (JSON lines) here.")
-def bench(cases, mode, limit, time_limit, output):
+def bench(cases, mode, limit, heavy, every, time_limit, output):
     """Measure elucidation on a case file (JSON lines with formula, peaks, answer).
 
     Prints top-1/top-5/found rates and times per heavy-atom band.
@@ -357,7 +361,14 @@ def bench(cases, mode, limit, time_limit, output):
     """
     from .bench import format_bench_table, run_bench
 
-    rows = run_bench(cases, mode=mode, limit=limit, time_limit=time_limit,
+    band = None
+    if heavy:
+        try:
+            lo, hi = (int(x) for x in heavy.split("-"))
+        except ValueError:
+            raise InputError(f"--heavy {heavy!r}: write a range such as 4-10") from None
+        band = (lo, hi)
+    rows = run_bench(cases, mode=mode, limit=limit, heavy=band, every=every, time_limit=time_limit,
                      progress=(lambda msg: click.echo(msg, err=True)) if sys.stderr.isatty() else None)
     if output:
         _write("".join(json.dumps(r) + "\n" for r in rows), output)

@@ -80,6 +80,7 @@ class SolveSettings:
     top: int = 10
     keep: int = 100
     pool: int | None = None  # structures fully scored in a steered search (None: from the time limit)
+    prior_weight: float = 1.0  # weight of the environment-rarity prior in the score
 
     def __post_init__(self):
         if not (self.time_limit > 0):
@@ -106,6 +107,7 @@ class Candidate:
     overlaps: int
     splits: int
     unfilled: tuple[int, ...]
+    prior: float = 0.0  # environment-rarity prior part of the score
 
 
 @dataclass(frozen=True)
@@ -131,6 +133,7 @@ class _Scored:
     score: float
     smiles: str
     assignment: Assignment
+    prior: float
     predicted: tuple
     order: tuple[int, ...]  # generator atom index -> SMILES atom index
 
@@ -277,6 +280,10 @@ def solve(
         row_check_factory=rule,
         time_limit=gen_limit,
     )
+    prior = None
+    if rule is not None and settings.prior_weight > 0:
+        def prior(mol, _t=rule.table, _w=settings.prior_weight):
+            return _w * _t.mol_rarity(mol)
     counter = 0
     evicted = 0
     last_report = start
@@ -297,7 +304,7 @@ def solve(
             if len(pool) == pool_size:
                 rule.bound = -pool[0][0]
         else:
-            item = _score(structure, peaks)
+            item = _score(structure, peaks, prior)
             if item is not None:
                 scored.append(item)
                 if len(scored) > 4 * settings.keep:
@@ -307,7 +314,7 @@ def solve(
             progress(counter, last_report - start)
     if steer:
         for _, _, structure in sorted(pool, key=lambda e: (-e[0], str(e[1]))):
-            item = _score(structure, peaks)
+            item = _score(structure, peaks, prior)
             if item is not None:
                 scored.append(item)
 
@@ -369,11 +376,14 @@ def _rank_key(item: "_Scored"):
     return (item.score, item.smiles)
 
 
-def _score(structure, peaks) -> "_Scored | None":
+def _score(structure, peaks, prior) -> "_Scored | None":
+    """Full score: assignment cost (shift likelihood, overlap/split) plus the
+    environment-rarity prior (-log prior probability of the structure)."""
     assignment, predicted = rank_structure(structure.mol, peaks.peaks)
     if math.isinf(assignment.cost):
         return None
-    return _Scored(assignment.cost, structure.smiles, assignment, predicted,
+    p = prior(structure.mol) if prior is not None else 0.0
+    return _Scored(assignment.cost + p, structure.smiles, assignment, p, predicted,
                    _smiles_order(structure.mol, True))
 
 
@@ -414,6 +424,7 @@ def _finalise(ranked: Sequence[_Scored], top: int) -> list[Candidate]:
                 overlaps=s.assignment.overlaps,
                 splits=s.assignment.splits,
                 unfilled=s.assignment.unfilled,
+                prior=round(s.prior, 4),
             )
         )
     return out

@@ -33,6 +33,7 @@ from __future__ import annotations
 
 import gzip
 import json
+import math
 from collections import defaultdict
 from dataclasses import dataclass
 from pathlib import Path
@@ -50,6 +51,10 @@ __all__ = [
     "environment_row_check_factory",
     "EnvironmentRule",
     "kekule_forms",
+    "atom_key",
+    "mol_atom_keys",
+    "rarity",
+    "RARITY_SCALE",
     "DEFAULT_TABLE_PATH",
 ]
 
@@ -62,6 +67,9 @@ _MIN_COUNT = 20
 #: Student-t degrees of freedom and spread floor (ppm) of environment costs.
 _NU = 3.0
 _SPREAD_FLOOR = 1.5
+#: An environment seen this often (per Kekulé-averaged constitution count)
+#: costs nothing in the rarity prior.
+RARITY_SCALE = 1000.0
 
 
 def _label(element: str, charge: int) -> str:
@@ -80,6 +88,39 @@ def environment_keys(h: int, neighbours: Sequence[tuple[str, int, int]]) -> tupl
     k2 = f"{h}|" + ",".join(f"{lab}{nh}-{o}" for lab, nh, o in nb)
     k1 = f"{h}|" + ",".join(f"{lab}-{o}" for lab, o in sorted((lab, o) for lab, _, o in nb))
     return k2, k1
+
+
+def atom_key(label: str, h: int, neighbours: Sequence[tuple[str, int, int]]) -> str:
+    """Environment key of any heavy atom (for the rarity prior).
+
+    >>> atom_key("O", 1, [("C", 2, 1)])
+    'O1|C2-1'
+    """
+    return f"{label}{h}|" + ",".join(f"{lab}{nh}-{o}" for lab, nh, o in sorted(neighbours))
+
+
+def mol_atom_keys(mol: Chem.Mol) -> list[str]:
+    """:func:`atom_key` of every heavy atom, by atom index."""
+    out = []
+    for atom in mol.GetAtoms():
+        nbs = []
+        for bond in atom.GetBonds():
+            other = bond.GetOtherAtom(atom)
+            nbs.append((_label(other.GetSymbol(), other.GetFormalCharge()), other.GetTotalNumHs(),
+                        int(round(bond.GetBondTypeAsDouble()))))
+        out.append(atom_key(_label(atom.GetSymbol(), atom.GetFormalCharge()), atom.GetTotalNumHs(), nbs))
+    return out
+
+
+def rarity(count: float) -> float:
+    """Prior cost of an environment seen ``count`` times in the training
+    constitutions: ``max(0, ln(RARITY_SCALE / (count + 1)))`` -- zero for
+    common environments, about 6.9 for one never seen.
+
+    >>> rarity(5000), round(rarity(0), 2)
+    (0.0, 6.91)
+    """
+    return max(0.0, math.log(RARITY_SCALE / (count + 1.0)))
 
 
 def mol_environment_keys(mol: Chem.Mol) -> dict[int, tuple[str, str]]:
@@ -132,6 +173,15 @@ class EnvironmentTable:
 
     stats: dict
     provenance: dict
+    atom_counts: dict = None  # atom_key -> constitutions-weighted count
+
+    def atom_rarity(self, key: str) -> float:
+        """:func:`rarity` of a heavy-atom environment key."""
+        return rarity((self.atom_counts or {}).get(key, 0.0))
+
+    def mol_rarity(self, mol: Chem.Mol) -> float:
+        """Summed rarity of a molecule's atoms (smallest over its Kekulé forms)."""
+        return min(sum(self.atom_rarity(k) for k in mol_atom_keys(f)) for f in kekule_forms(mol))
 
     def lookup(self, keys: tuple[str, str]):
         """Statistics at the deepest level with enough examples, or None."""
@@ -143,8 +193,8 @@ class EnvironmentTable:
 
     def save(self, path: Path | str) -> None:
         with gzip.open(path, "wt", encoding="utf-8") as fh:
-            json.dump({"provenance": self.provenance, "stats": self.stats}, fh, sort_keys=True,
-                      separators=(",", ":"))
+            json.dump({"provenance": self.provenance, "stats": self.stats,
+                       "atom_counts": self.atom_counts or {}}, fh, sort_keys=True, separators=(",", ":"))
 
 
 def build_environment_table(
@@ -160,13 +210,21 @@ def build_environment_table(
         Stored with the table.
     """
     values: dict[str, list[float]] = defaultdict(list)
+    counts: dict[str, float] = defaultdict(float)
+    seen: set[str] = set()
     n_mols = 0
     for smiles, shifts in records:
         mol = Chem.MolFromSmiles(smiles)
         if mol is None or not shifts:
             continue
         n_mols += 1
-        for form in kekule_forms(mol):
+        forms = kekule_forms(mol)
+        if smiles not in seen:  # atom-environment frequencies, once per constitution
+            seen.add(smiles)
+            for form in forms:
+                for k in mol_atom_keys(form):
+                    counts[k] += 1.0 / len(forms)
+        for form in forms:
             for idx, keys in mol_environment_keys(form).items():
                 if idx in shifts:
                     for k in set(keys):
@@ -177,8 +235,10 @@ def build_environment_table(
         qs = np.quantile(v, _QUANTILES)
         stats[k] = [int(len(v))] + [round(float(q), 2) for q in qs]
     prov = dict(provenance or {})
-    prov.update({"molecules": n_mols, "environments": len(stats), "quantiles": list(_QUANTILES)})
-    return EnvironmentTable(stats, prov)
+    prov.update({"molecules": n_mols, "constitutions": len(seen), "environments": len(stats),
+                 "atom_environments": len(counts), "quantiles": list(_QUANTILES)})
+    atom_counts = {k: round(v, 3) for k, v in sorted(counts.items())}
+    return EnvironmentTable(stats, prov, atom_counts)
 
 
 _CACHE: dict[str, EnvironmentTable] = {}
@@ -193,7 +253,7 @@ def load_environment_table(path: Path | str | None = None) -> EnvironmentTable |
             return None
         with gzip.open(p, "rt", encoding="utf-8") as fh:
             obj = json.load(fh)
-        _CACHE[key] = EnvironmentTable(obj["stats"], obj.get("provenance", {}))
+        _CACHE[key] = EnvironmentTable(obj["stats"], obj.get("provenance", {}), obj.get("atom_counts", {}))
     return _CACHE[key]
 
 
@@ -231,6 +291,16 @@ class EnvironmentRule:
         self.bound_pruned = 0
         #: Summed cost of the last complete structure accepted.
         self.last_total = 0.0
+        #: Weight of the environment-rarity prior in the approximate cost.
+        self.rarity_weight = 1.0
+        self._rarity_cache: dict[str, float] = {}
+
+    def _rarity(self, key: str) -> float:
+        r = self._rarity_cache.get(key)
+        if r is None:
+            r = self.table.atom_rarity(key)
+            self._rarity_cache[key] = r
+        return r
 
     def allowed(self, h: int, keys: tuple[str, str]) -> bool:
         """Whether a carbon with ``h`` H and these keys fits some line."""
@@ -278,16 +348,20 @@ class EnvironmentRule:
 
         def check(i: int, m) -> bool:
             before = partial[i - 1] if i else 0.0
-            if not carbons[i]:
-                partial[i] = before
-            else:
-                row = m[i]
-                keys = environment_keys(hs[i], [(labels[j], hs[j], row[j]) for j in range(n) if row[j]])
+            row = m[i]
+            nbs = [(labels[j], hs[j], row[j]) for j in range(n) if row[j]]
+            add = 0.0
+            if carbons[i]:
+                keys = environment_keys(hs[i], nbs)
                 self.checked += 1
                 if not self.allowed(hs[i], keys):
                     self.rejected += 1
                     return False
-                partial[i] = before + (self.cost(hs[i], keys) if self.steer else 0.0)
+                if self.steer:
+                    add = self.cost(hs[i], keys)
+            if self.steer:
+                add += self.rarity_weight * self._rarity(atom_key(labels[i], hs[i], nbs))
+                partial[i] = before + add
                 if partial[i] > self.bound:
                     self.bound_pruned += 1
                     return False

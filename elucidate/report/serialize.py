@@ -59,6 +59,7 @@ def result_to_dict(result: SolveResult) -> dict:
                 "rank": i + 1,
                 "smiles": c.smiles,
                 "score": _num(c.score, 4),
+                "prior_cost": _num(c.prior, 4),
                 "probability": _num(c.probability, 4),
                 "mae_ppm": _num(c.mae_ppm),
                 "max_error_ppm": _num(c.max_error_ppm),
