@@ -269,92 +269,118 @@ def solve(
     steer = rule is not None and pool_size > 0
     if steer:
         rule.steer = True
-    # Reserve part of the time for full scoring of the pool.
-    gen_limit = settings.time_limit * (0.7 if steer else 1.0)
-    run = enumerate_isomers(
-        formula,
-        valences=valences,
-        charged_nitrogen=settings.charged_nitrogen,
-        filters=cons.filters,
-        accept_types=cons.accept,
-        row_check_factory=rule,
-        time_limit=gen_limit,
-    )
     prior = None
     if rule is not None and settings.prior_weight > 0:
         def prior(mol, _t=rule.table, _w=settings.prior_weight):
             return _w * _t.mol_rarity(mol)
-    counter = 0
-    evicted = 0
-    last_report = start
-    # pool: max-heap on approximate cost (worst on top), ties by SMILES.
-    pool: list[tuple[float, _neg_key, Structure]] = []
+    # Reserve part of the time for full scoring of the pool.
+    gen_deadline = start + settings.time_limit * (0.7 if steer else 1.0)
+    last_report = [start]
+
+    def report():
+        if progress is not None and time.monotonic() - last_report[0] > 0.5:
+            last_report[0] = time.monotonic()
+            progress(len(found), last_report[0] - start)
+
+    def enumeration(limit):
+        return enumerate_isomers(
+            formula, valences=valences, charged_nitrogen=settings.charged_nitrogen,
+            filters=cons.filters, accept_types=cons.accept, row_check_factory=rule,
+            time_limit=max(limit, 1e-3),
+        )
+
+    found: dict[str, tuple[float, Structure]] = {}
     scored: list[_Scored] = []
-    for structure in run:
-        counter += 1
-        if steer:
-            entry = (-rule.last_total, _neg_key(structure.smiles), structure)
-            if len(pool) < pool_size:
-                heapq.heappush(pool, entry)
-            elif entry[:2] > pool[0][:2]:
-                heapq.heapreplace(pool, entry)
-                evicted += 1
-            else:
-                evicted += 1
-            if len(pool) == pool_size:
-                rule.bound = -pool[0][0]
-        else:
+    proven_bound = None  # every structure with approximate cost <= this was found
+    exhausted = False  # the whole constrained space was searched
+    if not steer:
+        run = enumeration(gen_deadline - time.monotonic())
+        for structure in run:
+            found[structure.smiles] = (0.0, structure)
             item = _score(structure, peaks, prior)
             if item is not None:
                 scored.append(item)
                 if len(scored) > 4 * settings.keep:
                     scored = sorted(scored, key=_rank_key)[: settings.keep]
-        if progress is not None and time.monotonic() - last_report > 0.5:
-            last_report = time.monotonic()
-            progress(counter, last_report - start)
-    if steer:
-        for _, _, structure in sorted(pool, key=lambda e: (-e[0], str(e[1]))):
+            report()
+        exhausted = run.complete
+        runs = [run]
+    else:
+        # Iterative deepening on the approximate cost: each pass finds every
+        # structure whose cost is at most the pass bound (branch and bound),
+        # so a finished pass proves that bound; the bound grows until the
+        # pool is full or nothing was pruned.
+        bound = _INITIAL_BOUND
+        runs = []
+        while True:
+            rule.bound = bound
+            rule.bound_pruned = 0
+            run = enumeration(gen_deadline - time.monotonic())
+            runs.append(run)
+            for structure in run:
+                if structure.smiles not in found:
+                    found[structure.smiles] = (rule.last_total, structure)
+                report()
+            if not run.complete:
+                break
+            if rule.bound_pruned == 0:
+                exhausted = True
+                break
+            proven_bound = bound
+            if len(found) >= pool_size:
+                break
+            bound *= _BOUND_GROWTH
+        pool = sorted(found.values(), key=lambda e: (e[0], e[1].smiles))
+        if len(pool) > pool_size:
+            # not fully scored: everything beyond the pool costs at least this
+            cut = pool[pool_size][0]
+            proven_bound = cut if proven_bound is None else min(proven_bound, cut)
+            exhausted = False
+            pool = pool[:pool_size]
+        for _, structure in pool:
             item = _score(structure, peaks, prior)
             if item is not None:
                 scored.append(item)
 
     ranked = sorted(scored, key=_rank_key)[: settings.keep]
     candidates = _finalise(ranked, settings.top)
-    bound_used = steer and (evicted > 0 or rule.bound_pruned > 0)
-    if not run.complete:
-        status, cost_bound = "stopped at the time limit", None
-    elif bound_used:
-        status, cost_bound = "complete up to cost", round(rule.bound, 3)
-    else:
+    if exhausted:
         status, cost_bound = "complete", None
+    elif proven_bound is not None:
+        status, cost_bound = "complete up to cost", round(proven_bound, 3)
+    else:
+        status, cost_bound = "stopped at the time limit", None
+    counter = len(found)
     warnings = list(peaks.warnings)
-    if not run.complete:
+    if status == "stopped at the time limit":
         warnings.append(
             f"search stopped at the time limit ({settings.time_limit:g} s): the list is not "
             "exhaustive and probabilities are relative to the structures found"
         )
-    elif bound_used:
+    elif status == "complete up to cost":
         warnings.append(
             f"fit-steered search: every structure not listed has an approximate (environment) cost "
-            f"above {rule.bound:.2f}; only the {pool_size} best by that cost were fully scored"
+            f"of at least {proven_bound:.2f}; probabilities are relative to the structures listed"
         )
     if not candidates:
         warnings.append(
             "no structure fits these constraints; check the formula, the multiplicities, "
             "solvent/impurity lines, or relax options (--allow-all)"
         )
+    run = runs[-1]
     log = [("atom-type distributions (DEPT H counts)", all_dists, run.distributions)]
     if rule is not None:
         log.append((f"shift environments (closed carbons checked, margin {settings.environment_margin:g} ppm)",
                     rule.checked, rule.checked - rule.rejected))
     log += run.filter_log
     if steer:
-        log.append((f"approximate-cost pool (best {pool_size})", counter, min(counter, pool_size)))
+        log.append((f"approximate-cost pool (best {pool_size}; {len(runs)} deepening passes)",
+                    counter, min(counter, pool_size)))
     return SolveResult(
         formula=formula,
         peaks=peaks,
         settings=settings,
-        complete=run.complete and not bound_used,
+        complete=status == "complete",
         completeness=(status, cost_bound),
         candidates_generated=counter,
         elapsed_s=time.monotonic() - start,
@@ -362,6 +388,11 @@ def solve(
         candidates=tuple(candidates),
         constraint_log=tuple(log),
     )
+
+
+#: First approximate-cost bound of the deepening search, and its growth per pass.
+_INITIAL_BOUND = 8.0
+_BOUND_GROWTH = 1.6
 
 
 def _pool_size(settings: SolveSettings) -> int:
