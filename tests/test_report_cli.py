@@ -117,8 +117,8 @@ def test_report_sdf_and_text(solved, tmp_path):
 
 
 def test_solve_writes_html_and_sdf_to_stdout():
-    # ethyl acetate, CDCl3 (Fulmer et al., Organometallics 2010, 29, 2176; from memory)
-    base = ["solve", "-f", "C4H8O2", "-p", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3", "--top", "2"]
+    # toluene, CDCl3 (Fulmer et al., Organometallics 2010, 29, 2176; from memory): several candidates
+    base = ["solve", "-f", "C7H8", "-p", "137.9 C, 129.1 CH, 128.3 CH, 125.4 CH, 21.5 CH3", "--top", "2"]
     html = CliRunner().invoke(main, base + ["--format", "html"])
     assert html.exit_code == 0 and html.stdout.startswith("<!DOCTYPE html>")
     sdf = CliRunner().invoke(main, base + ["--format", "sdf"])
