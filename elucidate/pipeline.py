@@ -318,7 +318,8 @@ def solve(
             run = enumeration(gen_deadline - time.monotonic())
             runs.append(run)
             for structure in run:
-                if structure.smiles not in found:
+                known = found.get(structure.smiles)
+                if known is None or rule.last_total < known[0]:  # another Kekulé form may cost less
                     found[structure.smiles] = (rule.last_total, structure)
                 report()
             if not run.complete:
@@ -333,11 +334,16 @@ def solve(
         pool = sorted(found.values(), key=lambda e: (e[0], e[1].smiles))
         if len(pool) > pool_size:
             # not fully scored: everything beyond the pool costs at least this
-            cut = pool[pool_size][0]
-            proven_bound = cut if proven_bound is None else min(proven_bound, cut)
+            proven_bound = _lower_bound(exhausted, proven_bound, pool[pool_size][0])
             exhausted = False
             pool = pool[:pool_size]
-        for _, structure in pool:
+        hard_deadline = start + settings.time_limit
+        for k, (_, structure) in enumerate(pool):
+            if time.monotonic() > hard_deadline:
+                # out of time while scoring: the unscored rest costs at least this
+                proven_bound = _lower_bound(exhausted, proven_bound, pool[k][0])
+                exhausted = False
+                break
             item = _score(structure, peaks, prior)
             if item is not None:
                 scored.append(item)
@@ -388,6 +394,19 @@ def solve(
         candidates=tuple(candidates),
         constraint_log=tuple(log),
     )
+
+
+def _lower_bound(exhausted: bool, proven: float | None, cut: float) -> float | None:
+    """Bound that still holds after dropping found structures costing >= ``cut``.
+
+    Only a search that was exhaustive or proved a bound can promise anything
+    about the structures it did not list.
+    """
+    if exhausted:
+        return cut
+    if proven is not None:
+        return min(proven, cut)
+    return None
 
 
 #: First approximate-cost bound of the deepening search, and its growth per pass.

@@ -339,6 +339,19 @@ class EnvironmentRule:
             self._costs[(h, keys)] = c
         return c
 
+    def structure_cost(self, mol: Chem.Mol) -> float:
+        """Approximate cost of a finished structure, as the steered search
+        computes it: the smallest, over its Kekulé forms, of the summed carbon
+        costs plus the weighted rarity of every atom's environment.
+        """
+        best = math.inf
+        for form in kekule_forms(mol):
+            keys = mol_environment_keys(form)
+            total = sum(self.cost(form.GetAtomWithIdx(i).GetTotalNumHs(), k) for i, k in keys.items())
+            total += self.rarity_weight * sum(self._rarity(k) for k in mol_atom_keys(form))
+            best = min(best, total)
+        return best
+
     def __call__(self, dist):
         labels = [_label(t.element, t.charge) for t in dist]
         hs = [t.hydrogens for t in dist]
