@@ -8,7 +8,8 @@ Sample sheet (CSV, UTF-8, comma separated, header required)::
 
 ``id``, ``formula`` and ``peaks`` are required columns; ``peaks`` is a file
 path relative to the CSV or inline peak text.  A row with ``expected`` runs
-the check workflow (:mod:`.check`), otherwise the solve pipeline.
+the check workflow (:mod:`.check`; an empty formula then defaults to the
+expected structure's), otherwise the solve pipeline.
 
 Execution: one task per sample, run in parallel processes
 (:class:`concurrent.futures.ProcessPoolExecutor`) or submitted to a Dask
@@ -159,7 +160,7 @@ def read_samples(path) -> list[Sample]:
                        "peak text that contains commas")
         elif not rec.get("id"):
             problem = f"row {lineno} has no id; give every sample a unique id"
-        elif not rec.get("formula"):
+        elif not rec.get("formula") and not rec.get("expected"):
             problem = f"row {lineno} ({sid}) has no formula; give the molecular formula, e.g. C8H8O2"
         elif not rec.get("peaks"):
             problem = f"row {lineno} ({sid}) has no peaks; give a peak file (relative to the CSV) or inline text"
@@ -216,7 +217,7 @@ def run_sample(sample: Sample, options: BatchOptions) -> dict:
         if sample.expected:
             from .check import check_structure, check_to_dict
 
-            result = check_structure(sample.expected, sample.peaks, formula=sample.formula,
+            result = check_structure(sample.expected, sample.peaks, formula=sample.formula or None,
                                      solvent=sample.solvent, time_limit=options.time_limit,
                                      alternatives=options.alternatives)
             data = check_to_dict(result)
