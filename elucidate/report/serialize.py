@@ -13,6 +13,7 @@ from __future__ import annotations
 import math
 
 from ..pipeline import CAUTION, SolveResult
+from ..rank.ambiguity import ambiguity_notes
 
 __all__ = ["result_to_dict"]
 
@@ -83,5 +84,6 @@ def result_to_dict(result: SolveResult) -> dict:
             }
             for i, c in enumerate(result.candidates)
         ],
+        "ambiguity": ambiguity_notes(result.candidates),
         "caution": CAUTION,
     }

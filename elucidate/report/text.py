@@ -51,6 +51,17 @@ def render_text(data: dict) -> str:
                 f"  {e['peak_index'] + 1:>4}  {e['observed']:>8.2f}  {e['predicted']:>9.2f}  "
                 f"{diff:>+6.2f}  {','.join(str(a) for a in e['atoms'])}{kind}"
             )
+        for note in data.get("ambiguity") or []:
+            out.append("")
+            out.append(
+                f"rank {note['rank']} ({note['smiles']}) is close to rank 1 "
+                f"(probability ratio {note['probability_ratio']}); lines that separate them most:"
+            )
+            for row in note["separating_lines"]:
+                out.append(
+                    f"  line {row['peak_index'] + 1} at {row['observed']:.1f} ppm: predicted "
+                    f"{row['predicted_best']:.1f} (rank 1) vs {row['predicted_other']:.1f} (rank {note['rank']})"
+                )
     else:
         out.append("no candidate structures")
     out.append("")
