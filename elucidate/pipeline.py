@@ -81,6 +81,7 @@ class SolveSettings:
     keep: int = 100
     pool: int | None = None  # structures fully scored in a steered search (None: from the time limit)
     prior_weight: float = 1.0  # weight of the environment-rarity prior in the score
+    workers: int = 2  # processes for the steered search (results do not depend on it)
 
     def __post_init__(self):
         if not (self.time_limit > 0):
@@ -289,14 +290,14 @@ def solve(
             time_limit=max(limit, 1e-3),
         )
 
-    found: dict[str, tuple[float, Structure]] = {}
+    found: dict[str, tuple[float, Chem.Mol | None]] = {}
     scored: list[_Scored] = []
     proven_bound = None  # every structure with approximate cost <= this was found
     exhausted = False  # the whole constrained space was searched
     if not steer:
         run = enumeration(gen_deadline - time.monotonic())
         for structure in run:
-            found[structure.smiles] = (0.0, structure)
+            found[structure.smiles] = (0.0, structure.mol)
             item = _score(structure, peaks, prior)
             if item is not None:
                 scored.append(item)
@@ -304,47 +305,59 @@ def solve(
                     scored = sorted(scored, key=_rank_key)[: settings.keep]
             report()
         exhausted = run.complete
-        runs = [run]
+        runs = [_PassOutcome({}, run.complete, 0, run.distributions, run.filter_log,
+                             rule.checked if rule else 0, rule.rejected if rule else 0)]
     else:
         # Iterative deepening on the approximate cost: each pass finds every
         # structure whose cost is at most the pass bound (branch and bound),
         # so a finished pass proves that bound; the bound grows until the
-        # pool is full or nothing was pruned.
+        # pool is full or nothing was pruned.  Passes run on `workers`
+        # processes, each taking every n-th atom-type distribution; the union
+        # does not depend on the split, so results are identical.
         bound = _INITIAL_BOUND
+        workers = _worker_count(settings)
+        state = _PassState(formula, valences, settings.charged_nitrogen, cons)
+        executor = _ShardPool(state, workers) if workers > 1 else None
         runs = []
-        while True:
-            rule.bound = bound
-            rule.bound_pruned = 0
-            run = enumeration(gen_deadline - time.monotonic())
-            runs.append(run)
-            for structure in run:
-                known = found.get(structure.smiles)
-                if known is None or rule.last_total < known[0]:  # another Kekulé form may cost less
-                    found[structure.smiles] = (rule.last_total, structure)
+        try:
+            while True:
+                outcome = (executor.run(bound, gen_deadline - time.monotonic()) if executor
+                           else _run_pass(state, bound, gen_deadline - time.monotonic(), 0, 1, True))
+                runs.append(outcome)
+                for smi, (cost, mol) in outcome.found.items():
+                    known = found.get(smi)
+                    if known is None or cost < known[0]:  # another Kekulé form may cost less
+                        found[smi] = (cost, mol)
                 report()
-            if not run.complete:
-                break
-            if rule.bound_pruned == 0:
-                exhausted = True
-                break
-            proven_bound = bound
-            if len(found) >= pool_size:
-                break
-            bound *= _BOUND_GROWTH
-        pool = sorted(found.values(), key=lambda e: (e[0], e[1].smiles))
+                if not outcome.complete:
+                    break
+                if outcome.bound_pruned == 0:
+                    exhausted = True
+                    break
+                proven_bound = bound
+                if len(found) >= pool_size:
+                    break
+                bound *= _BOUND_GROWTH
+        finally:
+            if executor is not None:
+                executor.close()
+        pool = sorted(((cost, smi, mol) for smi, (cost, mol) in found.items()), key=lambda e: (e[0], e[1]))
         if len(pool) > pool_size:
             # not fully scored: everything beyond the pool costs at least this
             proven_bound = _lower_bound(exhausted, proven_bound, pool[pool_size][0])
             exhausted = False
             pool = pool[:pool_size]
         hard_deadline = start + settings.time_limit
-        for k, (_, structure) in enumerate(pool):
+        for k, (_, smi, mol) in enumerate(pool):
             if time.monotonic() > hard_deadline:
                 # out of time while scoring: the unscored rest costs at least this
                 proven_bound = _lower_bound(exhausted, proven_bound, pool[k][0])
                 exhausted = False
                 break
-            item = _score(structure, peaks, prior)
+            written = mol is not None
+            if mol is None:
+                mol = Chem.MolFromSmiles(smi)
+            item = _score(Structure(smi, mol), peaks, prior, written)
             if item is not None:
                 scored.append(item)
 
@@ -373,12 +386,12 @@ def solve(
             "no structure fits these constraints; check the formula, the multiplicities, "
             "solvent/impurity lines, or relax options (--allow-all)"
         )
-    run = runs[-1]
-    log = [("atom-type distributions (DEPT H counts)", all_dists, run.distributions)]
+    last = runs[-1]
+    log = [("atom-type distributions (DEPT H counts)", all_dists, last.distributions)]
     if rule is not None:
         log.append((f"shift environments (closed carbons checked, margin {settings.environment_margin:g} ppm)",
-                    rule.checked, rule.checked - rule.rejected))
-    log += run.filter_log
+                    last.checked, last.checked - last.rejected))
+    log += last.filter_log
     if steer:
         log.append((f"approximate-cost pool (best {pool_size}; {len(runs)} deepening passes)",
                     counter, min(counter, pool_size)))
@@ -394,6 +407,104 @@ def solve(
         candidates=tuple(candidates),
         constraint_log=tuple(log),
     )
+
+
+@dataclass
+class _PassState:
+    formula: Formula
+    valences: dict
+    charged_nitrogen: bool
+    cons: "_Constraints"
+
+
+@dataclass
+class _PassOutcome:
+    found: dict  # smiles -> (approximate cost, mol or None)
+    complete: bool
+    bound_pruned: int
+    distributions: int
+    filter_log: list
+    checked: int
+    rejected: int
+
+
+def _shard_accept(base, shard: int, n: int):
+    """Keep every n-th distribution that ``base`` accepts (deterministic order)."""
+    seen = [0]
+
+    def accept(dist):
+        if base is not None and not base(dist):
+            return False
+        seen[0] += 1
+        return (seen[0] - 1) % n == shard
+
+    return accept
+
+
+def _run_pass(state: _PassState, bound: float, limit: float, shard: int, n: int, keep_mols: bool) -> _PassOutcome:
+    """One branch-and-bound pass at ``bound`` over one shard of distributions."""
+    rule = state.cons.row_check_factory
+    rule.bound = bound
+    rule.bound_pruned = rule.checked = rule.rejected = 0
+    run = enumerate_isomers(
+        state.formula, valences=state.valences, charged_nitrogen=state.charged_nitrogen,
+        filters=state.cons.filters,
+        accept_types=_shard_accept(state.cons.accept, shard, n) if n > 1 else state.cons.accept,
+        row_check_factory=rule, time_limit=max(limit, 1e-3),
+    )
+    found: dict[str, tuple[float, Chem.Mol | None]] = {}
+    for structure in run:
+        known = found.get(structure.smiles)
+        if known is None or rule.last_total < known[0]:
+            found[structure.smiles] = (rule.last_total, structure.mol if keep_mols else None)
+    return _PassOutcome(found, run.complete, rule.bound_pruned, run.distributions, run.filter_log,
+                        rule.checked, rule.rejected)
+
+
+_FORK_STATE: _PassState | None = None
+
+
+def _pass_in_child(args) -> _PassOutcome:
+    bound, limit, shard, n = args
+    return _run_pass(_FORK_STATE, bound, limit, shard, n, False)
+
+
+class _ShardPool:
+    """Worker processes (fork) that run one pass on their shard each."""
+
+    def __init__(self, state: _PassState, workers: int):
+        global _FORK_STATE
+        import multiprocessing
+
+        _FORK_STATE = state
+        self.n = workers
+        self.pool = multiprocessing.get_context("fork").Pool(workers)
+
+    def run(self, bound: float, limit: float) -> _PassOutcome:
+        parts = self.pool.map(_pass_in_child, [(bound, limit, i, self.n) for i in range(self.n)])
+        found: dict = {}
+        for part in parts:
+            for smi, entry in part.found.items():
+                if smi not in found or entry[0] < found[smi][0]:
+                    found[smi] = entry
+        log = [(name, sum(p.filter_log[i][1] for p in parts), sum(p.filter_log[i][2] for p in parts))
+               for i, (name, _, _) in enumerate(parts[0].filter_log)]
+        return _PassOutcome(found, all(p.complete for p in parts), sum(p.bound_pruned for p in parts),
+                            sum(p.distributions for p in parts), log,
+                            sum(p.checked for p in parts), sum(p.rejected for p in parts))
+
+    def close(self):
+        self.pool.terminate()
+        self.pool.join()
+
+
+def _worker_count(settings: SolveSettings) -> int:
+    """Processes for the search: ``settings.workers``, or 1 inside a worker process."""
+    import multiprocessing
+
+    if multiprocessing.parent_process() is not None:
+        return 1
+    return max(1, settings.workers)
 
 
 def _lower_bound(exhausted: bool, proven: float | None, cut: float) -> float | None:
@@ -426,7 +537,7 @@ def _rank_key(item: "_Scored"):
     return (item.score, item.smiles)
 
 
-def _score(structure, peaks, prior) -> "_Scored | None":
+def _score(structure, peaks, prior, smiles_written: bool = True) -> "_Scored | None":
     """Full score: assignment cost (shift likelihood, overlap/split) plus the
     environment-rarity prior (-log prior probability of the structure)."""
     assignment, predicted = rank_structure(structure.mol, peaks.peaks)
@@ -434,7 +545,7 @@ def _score(structure, peaks, prior) -> "_Scored | None":
         return None
     p = prior(structure.mol) if prior is not None else 0.0
     return _Scored(assignment.cost + p, structure.smiles, assignment, p, predicted,
-                   _smiles_order(structure.mol, True))
+                   _smiles_order(structure.mol, smiles_written))
 
 
 class _neg_key(str):
