@@ -44,3 +44,12 @@ def test_two_runs_give_identical_rankings():
     b = solve("C5H10O", PEAKS, settings)
     assert [(c.smiles, c.score) for c in a.candidates] == [(c.smiles, c.score) for c in b.candidates]
     assert a.completeness == b.completeness
+
+
+def test_worker_count_does_not_change_results():
+    peaks = "209.0, 43.7, 29.8, 17.4, 13.7"  # 2-pentanone without DEPT (from memory)
+    one = solve("C5H10O", peaks, SolveSettings(pool=20, workers=1))
+    two = solve("C5H10O", peaks, SolveSettings(pool=20, workers=2))
+    assert [(c.smiles, c.score) for c in one.candidates] == [(c.smiles, c.score) for c in two.candidates]
+    assert one.completeness == two.completeness
+    assert one.candidates_generated == two.candidates_generated
