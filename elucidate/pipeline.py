@@ -322,7 +322,7 @@ def solve(
         try:
             while True:
                 outcome = (executor.run(bound, gen_deadline - time.monotonic()) if executor
-                           else _run_pass(state, bound, gen_deadline - time.monotonic(), 0, 1, True))
+                           else _run_pass(state, bound, gen_deadline - time.monotonic(), 0, 1, False))
                 runs.append(outcome)
                 for smi, (cost, mol) in outcome.found.items():
                     known = found.get(smi)
