@@ -65,6 +65,12 @@ def test_dmf_methyls_average():
     assert abs(p[0].shift - (36.50 + 31.39) / 2) <= TOL
 
 
+def test_toluene_ring_order():
+    # Fulmer et al. 2010 (from memory): ortho 129.07 > meta 128.26 > para 125.33
+    p = _by_index("Cc1ccccc1")
+    assert p[2].shift > p[3].shift > p[4].shift
+
+
 def test_pyridine_order():
     # Fulmer et al. 2010 (from memory): C2 149.90 > C4 135.96 > C3 123.75
     p = _by_index("c1ccncc1")

@@ -106,3 +106,28 @@ def test_ridge_recovers_known_weights():
     rows, cols = np.nonzero(x)
     w = fit_ridge(rows, cols, y, f, lam=1e-6, tol=1e-12, max_iter=2000)
     assert np.allclose(w, w_true, atol=1e-3)
+
+
+def test_assignment_keeps_symmetry_classes_whole():
+    # common practice, no source: symmetry-equivalent carbons carry one shift.
+    # Toluene-like CH group: classes ortho (2), meta (2), para (1); observed
+    # lines 125.3 (1 C), 128.3 (2 C), 129.1 (2 C).  Even with predictions that
+    # put meta below para, the para class must take the one-carbon line and
+    # each two-carbon class a two-carbon line (no splitting of a class).
+    from types import SimpleNamespace
+
+    from elucidate.predict.build import _assign, _group_plan, _initial_assignment
+
+    idx = np.array([0, 1, 2, 3, 4])
+    sym = np.array([10, 11, 12, 11, 10])  # ortho, meta, para, meta, ortho
+    obs = np.array([125.3, 128.3, 128.3, 129.1, 129.1])
+    classes, blocks = _group_plan(idx, obs, sym)
+    assert blocks is not None
+    corpus = SimpleNamespace(groups=((idx, obs, classes, blocks),), sym=sym, record=np.zeros(5))
+    y0 = _initial_assignment(corpus)
+    assert y0[2] == pytest.approx(125.3) and np.isnan(y0[[0, 1, 3, 4]]).all()
+    pred = np.array([129.5, 124.0, 127.0, 124.0, 129.5])  # meta predicted lowest
+    y = _assign(corpus, pred, y0)
+    assert y[2] == pytest.approx(125.3)
+    assert y[1] == y[3] == pytest.approx(128.3)
+    assert y[0] == y[4] == pytest.approx(129.1)

@@ -8,8 +8,11 @@ expectation–maximisation style *assignment recovery* (Dempster, Laird &
 Rubin, *J. R. Stat. Soc. B* 1977, 39, 1 — from memory, in the hard-assignment
 form):
 
-1. Carbons alone in their hydrogen-count group after symmetry are fixed
-   (their shift is known).
+1. Carbons whose shift is determined are fixed: a symmetry class alone in
+   its hydrogen-count group, or the only class of its size when the observed
+   lines of the group, merged where equal, match the class sizes one to one
+   (e.g. the para CH of a monosubstituted benzene: one line of one carbon
+   among lines of two carbons).
 2. Round 0: fit the model (environment-code medians + ridge fallback) on the
    fixed carbons only and predict every carbon.
 3. Each round: within every (record, H-count) group, assign the observed
@@ -40,7 +43,7 @@ from rdkit import Chem, RDLogger
 
 from ..errors import InputError
 from .codes import MAX_SPHERE, carbon_environment, code_key, graph_from_mol
-from .model import COUNT_BUCKETS, ShiftModel, default_table_path
+from .model import CODE_FEATURE_SPHERES, COUNT_BUCKETS, ShiftModel, default_table_path
 from .ridge import fit_ridge
 
 __all__ = [
@@ -54,6 +57,8 @@ __all__ = [
 _MULT_H = {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}
 _N_BUCKETS = len(COUNT_BUCKETS)
 _EXACT_LOO_MAX = 40
+_SAME_SHIFT = 0.011  # ppm: observed lines closer than this count as one line
+_EM_RIDGE_ITER = 150  # CG iterations of the ridge fits inside the EM rounds
 
 ATTRIBUTION = (
     "Derived from the open nmrshiftdb2 database of assigned NMR spectra "
@@ -76,11 +81,15 @@ class BuildSettings:
         Ridge penalty of the additive fallback.
     min_feature_count : int
         Path features seen fewer times are dropped.
+    start_sphere : int
+        Deepest sphere used in round 0; each round allows one more (coarse
+        to fine), up to the maximum.
     """
 
     rounds: int = 5
     ridge_lambda: float = 2.0
     min_feature_count: int = 3
+    start_sphere: int = 2
 
 
 def default_cache_dir() -> Path:
@@ -103,11 +112,12 @@ class _Corpus:
     keys: np.ndarray       # per carbon x sphere (0..MAX_SPHERE): uint64 code keys
     ctype: np.ndarray      # per carbon: centre-type id
     ctype_names: tuple
-    feat_row: np.ndarray   # sparse path features (centre type excluded)
+    feat_row: np.ndarray   # sparse fallback features (centre type excluded)
     feat_col: np.ndarray
-    feat_names: tuple
-    groups: tuple          # (carbon index array, sorted observed shifts)
-    fixed: np.ndarray      # per carbon: bool, unambiguous
+    feat_names: tuple      # path-feature names (columns 0 .. len-1)
+    code_feat_keys: np.ndarray  # code-indicator columns after the path features
+    groups: tuple          # (carbon indices, sorted observed shifts, classes, blocks)
+    fixed: np.ndarray      # per carbon: bool, shift determined by the data alone
 
 
 def _open_text(path):
@@ -196,11 +206,36 @@ def _read_corpus(data_path, limit, min_feature_count, progress):
             if j is not None:
                 frow.append(row)
                 fcol.append(j)
+    # code-indicator features: environment codes of spheres CODE_FEATURE_SPHERES
+    # seen at least twice (a random-effect-like term per code; ridge shrinkage
+    # weights it by its number of examples)
+    keys_arr = np.array(keys, dtype=np.uint64)
+    code_keys = []
+    off = len(names)
+    frow = [np.array(frow, dtype=np.int64)]
+    fcol = [np.array(fcol, dtype=np.int64)]
+    for s in CODE_FEATURE_SPHERES:
+        uniq, inv, cnt = np.unique(keys_arr[:, s], return_inverse=True, return_counts=True)
+        keep = cnt >= 2
+        ids = np.cumsum(keep) - 1
+        ok = keep[inv]
+        frow.append(np.nonzero(ok)[0])
+        fcol.append(off + ids[inv[ok]])
+        code_keys.append(uniq[keep])
+        off += int(keep.sum())
     sym_arr = np.array(sym, dtype=np.int64)
     fixed = np.zeros(len(rec), dtype=bool)
-    for idx, _ in groups_raw:
-        if len(set(sym_arr[idx].tolist())) == 1:
+    groups = []
+    for idx, ob in groups_raw:
+        classes, blocks = _group_plan(idx, ob, sym_arr)
+        groups.append((idx, ob, classes, blocks))
+        if len(classes) == 1:
             fixed[idx] = True
+        elif blocks is not None:
+            sizes = [len(c) for c in classes]
+            for c in classes:
+                if sizes.count(len(c)) == 1:
+                    fixed[c] = True
     ct_names = [None] * len(ctype_ids)
     for name, j in ctype_ids.items():
         ct_names[j] = name
@@ -211,13 +246,14 @@ def _read_corpus(data_path, limit, min_feature_count, progress):
         const=np.array(const, dtype=np.int64),
         hydrogens=np.array(hyd, dtype=np.int64),
         sym=sym_arr,
-        keys=np.array(keys, dtype=np.uint64),
+        keys=keys_arr,
         ctype=np.array(ctype, dtype=np.int64),
         ctype_names=tuple(ct_names),
-        feat_row=np.array(frow, dtype=np.int64),
-        feat_col=np.array(fcol, dtype=np.int64),
+        feat_row=np.concatenate(frow),
+        feat_col=np.concatenate(fcol),
         feat_names=tuple(names),
-        groups=tuple(groups_raw),
+        code_feat_keys=np.concatenate(code_keys),
+        groups=tuple(groups),
         fixed=fixed,
     ), n_lines
 
@@ -246,24 +282,29 @@ def _group_stats(key_col, y, valid):
     return uniq, med, cnt, std, rows, start
 
 
-def _table_loo(corpus, y, valid):
+def _table_loo(corpus, y, valid, max_sphere=MAX_SPHERE):
     """Leave-one-constitution-out table look-up for every carbon.
 
-    Returns sphere (0 = none), median, count (of other-constitution examples)
-    and spread per carbon.
+    Returns, per carbon: the deepest sphere (<= ``max_sphere``; 0 = none)
+    with examples from other constitutions, their median, count and spread,
+    and the leave-one-out median one sphere up (same as the median at
+    sphere 1).
     """
     n = len(y)
     sphere = np.zeros(n, dtype=np.int64)
     med_out = np.full(n, np.nan)
+    up_out = np.full(n, np.nan)
     cnt_out = np.zeros(n, dtype=np.int64)
     spr_out = np.full(n, np.nan)
     const = corpus.const
     n_const = int(const.max()) + 1
     todo = np.ones(n, dtype=bool)
-    for s in range(MAX_SPHERE, 0, -1):
+    hit_below = np.zeros(n, dtype=bool)  # carbons whose deepest sphere is s + 1
+    for s in range(max_sphere, 0, -1):
         kc = corpus.keys[:, s]
         uniq, med, cnt, std, rows, start = _group_stats(kc, y, valid)
         if len(uniq) == 0:
+            hit_below = np.zeros(n, dtype=bool)
             continue
         pos = np.searchsorted(uniq, kc)
         pos_c = np.minimum(pos, len(uniq) - 1)
@@ -274,31 +315,48 @@ def _table_loo(corpus, y, valid):
         pu, pc = np.unique(pair_rows, return_counts=True)
         pair_all = pos_c * n_const + const
         pp = np.minimum(np.searchsorted(pu, pair_all), len(pu) - 1)
-        own = np.where(pu[pp] == pair_all, pc[pp], 0)
+        own = np.where(present & (pu[pp] == pair_all), pc[pp], 0)
         other = np.where(present, cnt[pos_c] - own, 0)
         hit = todo & (other > 0)
+        wanted = hit | hit_below
+        loo_med = np.where(present, med[pos_c], np.nan)
+        loo_std = np.where(present, std[pos_c], np.nan)
+        # exact leave-one-out medians where the own constitution contributes
+        need = np.nonzero(wanted & (own > 0) & (other > 0) & (cnt[pos_c] <= _EXACT_LOO_MAX))[0]
+        yv = y[rows].tolist()
+        cv = const[rows].tolist()
+        g_of = pos_c[need].tolist()
+        a_of = start[pos_c[need]].tolist()
+        b_of = (start[pos_c[need]] + cnt[pos_c[need]]).tolist()
+        own_c = const[need].tolist()
+        for c, a, b, oc in zip(need.tolist(), a_of, b_of, own_c):
+            vals = [v for v, cc in zip(yv[a:b], cv[a:b]) if cc != oc]  # sorted
+            m = len(vals)
+            loo_med[c] = 0.5 * (vals[(m - 1) // 2] + vals[m // 2])
+            mu = sum(vals) / m
+            loo_std[c] = (max(sum(v * v for v in vals) / m - mu * mu, 0.0)) ** 0.5
+        del g_of
         idx = np.nonzero(hit)[0]
-        g = pos_c[idx]
         sphere[idx] = s
         cnt_out[idx] = other[idx]
-        med_out[idx] = med[g]
-        spr_out[idx] = std[g]
-        # exact leave-one-out medians where the own constitution contributes
-        need = idx[(own[idx] > 0) & (cnt[g] <= _EXACT_LOO_MAX)]
-        yv = y[rows]
-        cv = const[rows]
-        for c in need.tolist():
-            gg = pos_c[c]
-            a, b = start[gg], start[gg] + cnt[gg]
-            vals = yv[a:b][cv[a:b] != const[c]]
-            med_out[c] = float(np.median(vals))
-            spr_out[c] = float(vals.std())
+        med_out[idx] = loo_med[idx]
+        spr_out[idx] = loo_std[idx]
+        below = np.nonzero(hit_below)[0]
+        up_out[below] = loo_med[below]
         todo &= ~hit
-    return sphere, med_out, cnt_out, spr_out
+        hit_below = hit
+    one = sphere == 1
+    up_out[one] = med_out[one]
+    return sphere, med_out, cnt_out, spr_out, up_out
 
 
-def _fit_fallback(corpus, y, valid, lam):
-    """Per centre-type base means and ridge weights on the residuals."""
+def _fit_fallback(corpus, y, valid, lam, max_iter=500, use_codes=True):
+    """Per centre-type base means and ridge weights on the residuals.
+
+    ``use_codes=False`` fits the path features only (code-indicator weights
+    stay 0): used inside the EM rounds, where the fit is in-sample and code
+    indicators would merely reproduce the current assignment.
+    """
     n_ct = len(corpus.ctype_names)
     ct = corpus.ctype
     yv = np.where(valid, y, 0.0)
@@ -312,10 +370,14 @@ def _fit_fallback(corpus, y, valid, lam):
             h_means[h] = float(np.mean(y[m]))
     resid = y - np.nan_to_num(base[ct])
     ent = valid[corpus.feat_row]
+    if not use_codes:
+        ent &= corpus.feat_col < len(corpus.feat_names)
     rows = corpus.feat_row[ent]
     cols = corpus.feat_col[ent]
     remap = np.cumsum(valid) - 1
-    w = fit_ridge(remap[rows], cols, resid[valid], len(corpus.feat_names), lam=lam)
+    n_cols = len(corpus.feat_names) + len(corpus.code_feat_keys)
+    w = fit_ridge(remap[rows], cols, resid[valid], n_cols, lam=lam,
+                  tol=1e-5, max_iter=max_iter)
     return base, w, h_means
 
 
@@ -329,23 +391,38 @@ def _fallback_predict(corpus, base, w, h_means):
     return out
 
 
-def _calibrate(sphere, med, cnt, spr, fb, y, valid):
-    """Blend weights alpha[s][bucket] and RMS sigma[s][bucket]."""
-    alpha = np.ones((MAX_SPHERE + 1, _N_BUCKETS))
-    alpha[0, :] = 0.0
+def _calibrate(sphere, med, cnt, up, fb, y, valid):
+    """Stacking weights ``(a1, a2)[s][bucket]`` and RMS sigma[s][bucket].
+
+    Per cell (deepest sphere, count bucket) a least-squares fit of
+    ``y - r = a1 (m - r) + a2 (m' - r)``; cells with fewer than 50 carbons
+    (or sphere 1) get the one-weight form.
+    """
+    alpha = np.zeros((MAX_SPHERE + 1, _N_BUCKETS, 2))
+    alpha[1:, :, 0] = 1.0
     sigma = np.full((MAX_SPHERE + 1, _N_BUCKETS), np.nan)
     bucket = np.clip(np.searchsorted(np.array(COUNT_BUCKETS), cnt, side="right") - 1, 0, None)
+    d1_all = np.nan_to_num(med - fb)
+    d2_all = np.nan_to_num(up - fb)
     for s in range(1, MAX_SPHERE + 1):
         for b in range(_N_BUCKETS):
             m = valid & (sphere == s) & (bucket == b)
-            if m.sum() < 20:
+            k = int(m.sum())
+            if k < 20:
                 continue
-            d = med[m] - fb[m]
+            d1 = d1_all[m]
+            d2 = d2_all[m]
             t = y[m] - fb[m]
-            den = float(d @ d)
-            if den > 0:
-                alpha[s, b] = float(np.clip((d @ t) / den, 0.0, 1.0))
-    pred = fb + alpha[sphere, bucket] * np.nan_to_num(med - fb)
+            if s > 1 and k >= 50:
+                x = np.stack([d1, d2], axis=1)
+                g = x.T @ x
+                g += 1e-6 * (np.trace(g) + 1.0) * np.eye(2)
+                alpha[s, b] = np.linalg.solve(g, x.T @ t)
+            else:
+                den = float(d1 @ d1)
+                if den > 0:
+                    alpha[s, b] = (float(np.clip((d1 @ t) / den, 0.0, 1.0)), 0.0)
+    pred = fb + alpha[sphere, bucket, 0] * d1_all + alpha[sphere, bucket, 1] * d2_all
     err = np.clip(np.abs(pred - y), 0, 30.0)
     for s in range(0, MAX_SPHERE + 1):
         for b in range(_N_BUCKETS):
@@ -361,62 +438,132 @@ def _calibrate(sphere, med, cnt, spr, fb, y, valid):
     return alpha, sigma, pred
 
 
+def _group_plan(idx, obs, sym):
+    """Symmetry classes of a (spectrum, H-count) group and, when possible,
+    the observed line blocks they map onto one to one.
+
+    Returns ``(classes, blocks)``: ``classes`` a list of member-index arrays
+    (ascending class id); ``blocks`` a list of ``(shift, size)`` of equal
+    observed lines (ascending), or None when the multiset of block sizes
+    differs from that of the class sizes (accidental overlaps, noise) or all
+    classes are single carbons.
+    """
+    ids = sym[idx]
+    uniq = sorted(set(ids.tolist()))
+    classes = [idx[ids == c] for c in uniq]
+    if len(classes) == len(idx):
+        return classes, None
+    blocks = []
+    start = 0
+    for j in range(1, len(obs) + 1):
+        if j == len(obs) or obs[j] - obs[start] > _SAME_SHIFT:
+            blocks.append((float(obs[start:j].mean()), j - start))
+            start = j
+    if sorted(len(c) for c in classes) != sorted(k for _, k in blocks):
+        return classes, None
+    return classes, blocks
+
+
+def _initial_assignment(corpus):
+    """Shifts of the fixed carbons (others NaN)."""
+    y = np.full(len(corpus.record), np.nan)
+    for idx, obs, classes, blocks in corpus.groups:
+        if len(classes) == 1:
+            y[idx] = obs.mean()
+        elif blocks is not None:
+            sizes = [len(c) for c in classes]
+            for c in classes:
+                if sizes.count(len(c)) == 1:
+                    y[c] = next(v for v, k in blocks if k == len(c))
+    return y
+
+
 def _assign(corpus, pred, y):
-    """Sorted matching of observed shifts to predictions in every group,
-    then averaging over symmetry classes."""
+    """Re-assign observed shifts to carbons in every group.
+
+    Groups whose observed line blocks match the symmetry classes one to one:
+    classes of each size are matched to blocks of that size by sorted
+    matching of the predictions.  Otherwise: sorted matching carbon by
+    carbon, then averaging over symmetry classes.
+    """
     y = y.copy()
     sym = corpus.sym
-    for idx, obs in corpus.groups:
+    for idx, obs, classes, blocks in corpus.groups:
         if len(idx) == 1:
             y[idx] = obs
+            continue
+        if blocks is not None:
+            by_size = {}
+            for c in classes:
+                by_size.setdefault(len(c), []).append(c)
+            for k, cl in by_size.items():
+                vals = [v for v, kk in blocks if kk == k]
+                order = sorted(range(len(cl)), key=lambda t: (pred[cl[t][0]], int(cl[t][0])))
+                for t, v in zip(order, vals):
+                    y[cl[t]] = v
             continue
         p = pred[idx]
         order = np.lexsort((idx, sym[idx], p))
         vals = np.empty(len(idx))
         vals[order] = obs
-        cls = sym[idx]
-        if len(np.unique(cls)) < len(cls):
-            for c in np.unique(cls):
-                m = cls == c
+        if len(classes) < len(idx):
+            for c in classes:
+                m = np.isin(idx, c)
                 vals[m] = vals[m].mean()
         y[idx] = vals
     return y
 
 
-def _loo_predict(corpus, y, valid, settings, cross_fit):
-    sphere, med, cnt, spr = _table_loo(corpus, y, valid)
+def _loo_predict(corpus, y, valid, settings, cross_fit, max_sphere=MAX_SPHERE, max_iter=500):
+    sphere, med, cnt, spr, up = _table_loo(corpus, y, valid, max_sphere)
     if cross_fit:
         fb = np.zeros(len(y))
         fold = corpus.const % 2
         for f in (0, 1):
-            base, w, hm = _fit_fallback(corpus, y, valid & (fold != f), settings.ridge_lambda)
+            base, w, hm = _fit_fallback(corpus, y, valid & (fold != f), settings.ridge_lambda,
+                                        max_iter)
             fb_f = _fallback_predict(corpus, base, w, hm)
             fb = np.where(fold == f, fb_f, fb)
     else:
-        base, w, hm = _fit_fallback(corpus, y, valid, settings.ridge_lambda)
+        base, w, hm = _fit_fallback(corpus, y, valid, settings.ridge_lambda, max_iter,
+                                    use_codes=False)
         fb = _fallback_predict(corpus, base, w, hm)
-    alpha, sigma, pred = _calibrate(sphere, med, cnt, spr, fb, y, valid)
+    alpha, sigma, pred = _calibrate(sphere, med, cnt, up, fb, y, valid)
     return pred, alpha, sigma, sphere
 
 
+def _sphere_schedule(settings):
+    """Deepest sphere used by the predictions of round 0, 1, ..., rounds.
+
+    Coarse to fine: early rounds pool many molecules per code (so a
+    family of molecules cannot lock in a swapped labelling of its own), later
+    rounds use the full depth.
+    """
+    start = settings.start_sphere
+    return [min(MAX_SPHERE, start + r) for r in range(settings.rounds + 1)]
+
+
 def _recover_assignment(corpus, settings, progress):
-    y = np.full(len(corpus.record), np.nan)
-    for idx, obs in corpus.groups:
-        if corpus.fixed[idx[0]]:
-            y[idx] = obs.mean()
+    y = _initial_assignment(corpus)
     valid = corpus.fixed.copy()
-    pred, *_ = _loo_predict(corpus, np.nan_to_num(y), valid, settings, cross_fit=False)
+    schedule = _sphere_schedule(settings)
+    pred, *_ = _loo_predict(corpus, np.nan_to_num(y), valid, settings, cross_fit=False,
+                            max_sphere=schedule[0], max_iter=_EM_RIDGE_ITER)
     history = []
     for r in range(settings.rounds):
         y_new = _assign(corpus, pred, y)
         changed = int(np.sum(np.abs(y_new - np.nan_to_num(y, nan=-1e9)) > 1e-9))
         y = y_new
         valid = np.ones(len(y), dtype=bool)
-        pred, *_ = _loo_predict(corpus, y, valid, settings, cross_fit=False)
+        cap = schedule[r + 1]
+        pred, *_ = _loo_predict(corpus, y, valid, settings, cross_fit=False, max_sphere=cap,
+                                max_iter=_EM_RIDGE_ITER)
         mae = float(np.mean(np.abs(pred - y)))
-        history.append({"round": r + 1, "changed": changed, "loo_mae": round(mae, 4)})
+        history.append({"round": r + 1, "max_sphere": cap, "changed": changed,
+                        "loo_mae": round(mae, 4)})
         if progress:
-            progress(f"round {r + 1}: {changed} carbons re-assigned, LOO MAE {mae:.3f} ppm")
+            progress(f"round {r + 1} (spheres <= {cap}): {changed} carbons re-assigned, "
+                     f"LOO MAE {mae:.3f} ppm")
     y = _assign(corpus, pred, y)
     return y, history
 
@@ -499,7 +646,11 @@ def build_table(data_path, output_path=None, limit=None, settings=None,
     keys = keys[order]
     if len(np.unique(keys)) != len(keys):
         raise RuntimeError("environment-code key collision; change the digest")
-    ridge_weights = {name: float(v) for name, v in zip(corpus.feat_names, w) if abs(v) > 1e-6}
+    n_path = len(corpus.feat_names)
+    ridge_weights = {name: float(v) for name, v in zip(corpus.feat_names, w[:n_path])
+                     if abs(v) > 1e-6}
+    code_w = dict(zip(corpus.code_feat_keys.tolist(), w[n_path:].tolist()))
+    code_weight = np.array([code_w.get(k, 0.0) for k in keys.tolist()])
     ridge_base = {name: float(b) for name, b in zip(corpus.ctype_names, base) if not np.isnan(b)}
 
     n_const = len(set(corpus.smiles))
@@ -520,9 +671,11 @@ def build_table(data_path, output_path=None, limit=None, settings=None,
             "unambiguous_carbons": int(corpus.fixed.sum()),
             "codes": int(len(keys)),
             "path_features": len(ridge_weights),
+            "code_features": int(len(corpus.code_feat_keys)),
             "centre_types": len(ridge_base),
         },
-        "settings": dict(asdict(settings), limit=limit, max_sphere=MAX_SPHERE),
+        "settings": dict(asdict(settings), limit=limit, max_sphere=MAX_SPHERE,
+                         code_feature_spheres=list(CODE_FEATURE_SPHERES)),
         "em_history": history,
         "loo_mae_ppm": round(float(loo_err.mean()), 4),
         "loo_p99_ppm": round(float(np.percentile(loo_err, 99)), 4),
@@ -534,6 +687,7 @@ def build_table(data_path, output_path=None, limit=None, settings=None,
         median=np.concatenate(med_all)[order],
         count=np.concatenate(cnt_all)[order],
         spread=np.concatenate(spr_all)[order],
+        code_weight=code_weight,
         ridge_weights=ridge_weights,
         ridge_base=ridge_base,
         h_means=h_means,

@@ -5,9 +5,12 @@ Each carbon is described by a sequence of nested codes, one per *sphere*
 (element, aromaticity, charge, hydrogen count); sphere ``k`` appends the shell
 of heavy atoms first reached at distance ``k``.  Every shell atom carries a
 *path label*: the label of the parent it was reached from, the bond to it and
-its own token (element, aromatic flag, charge), so that branches stay grouped
-as in Bremser's codes.  Ring closures are marked per shell: an atom reached
-from two parents (even ring) and a bond inside the previous shell (odd ring).
+its own token (element, aromatic flag, charge; atoms of sphere 1 also their
+heavy-atom degree and hydrogen count), so that branches stay grouped as in
+Bremser's codes.  Ring closures are marked in the shell where they close:
+``&n`` counts atoms reached from two parents (an even ring through the
+centre, size ``2k``), ``%n`` bonds inside the shell (an odd ring, size
+``2k + 1``).
 
 The idea of describing a nucleus by concentric spheres of neighbours follows
 Bremser, *Anal. Chim. Acta* 1978, 103, 355 (HOSE code, citation from memory);
@@ -16,8 +19,11 @@ the encoding itself (characters, ordering, closure marks) is this project's own.
 The same breadth-first pass also yields the additive *path features* used by
 the ridge-regression fallback (`elucidate.predict.ridge`): for every atom at
 distance 1–4 the centre type, the distance, the bond by which the atom is
-reached, its token and its heavy-atom degree (neighbours at distance 1 also
-carry their hydrogen count), plus the ring-closure marks per shell.
+reached and its token; for atoms at distance 2–4 also the whole path from
+the centre (which carries the degree and H count of the neighbour in
+between, i.e. branching); plus the ring sizes from the closure marks.  The
+features are a function of the sphere-5 code string, so the code alone can
+key a per-environment prediction cache.
 
 Codes are plain strings; tables are keyed by a stable 64-bit BLAKE2b digest
 of the string (`code_key`), so they do not depend on Python's per-process
@@ -44,6 +50,10 @@ __all__ = [
 MAX_SPHERE = 5
 #: Deepest distance used by the additive path features.
 FEATURE_DISTANCE = 4
+#: Deepest distance at which whole paths (not only the end atom) are features.
+PATH_FEATURE_DISTANCE = 4
+
+_SYMBOL = {6: "C", 7: "N", 8: "O", 9: "F", 15: "P", 16: "S", 17: "Cl", 35: "Br", 53: "I"}
 
 _BOND_CHAR = {
     Chem.BondType.SINGLE: "-",
@@ -70,6 +80,8 @@ class MolGraph:
     adjacency : tuple of tuple of (int, str)
         Per heavy atom, its heavy neighbours as ``(local index, bond char)``,
         sorted for determinism.
+    first_token : tuple of str
+        Token used in sphere 1: ``token`` plus heavy degree, ``h`` and H count.
     """
 
     atom_index: tuple
@@ -77,6 +89,7 @@ class MolGraph:
     token: tuple
     hydrogens: tuple
     adjacency: tuple
+    first_token: tuple
 
 
 def graph_from_mol(mol) -> MolGraph:
@@ -94,30 +107,39 @@ def graph_from_mol(mol) -> MolGraph:
     -------
     MolGraph
     """
-    local = {}
+    n_atoms = mol.GetNumAtoms()
+    local = [-1] * n_atoms
     atom_index = []
     symbol = []
     token = []
     hydrogens = []
-    for atom in mol.GetAtoms():
-        if atom.GetAtomicNum() == 1:
+    has_h_atoms = False
+    get_atom = mol.GetAtomWithIdx
+    for idx in range(n_atoms):
+        atom = get_atom(idx)
+        z = atom.GetAtomicNum()
+        if z == 1:
+            has_h_atoms = True
             continue
-        idx = atom.GetIdx()
         local[idx] = len(atom_index)
         atom_index.append(idx)
-        sym = atom.GetSymbol()
+        sym = _SYMBOL.get(z) or atom.GetSymbol()
         symbol.append(sym)
         charge = atom.GetFormalCharge()
-        tok = sym + ("a" if atom.GetIsAromatic() else "")
+        tok = sym + "a" if atom.GetIsAromatic() else sym
         if charge:
             tok += ("+" if charge > 0 else "-") * abs(charge)
         token.append(tok)
-        hydrogens.append(atom.GetTotalNumHs(includeNeighbors=True))
+        hydrogens.append(atom.GetTotalNumHs())
     adjacency = [[] for _ in atom_index]
-    for bond in mol.GetBonds():
-        a = local.get(bond.GetBeginAtomIdx())
-        b = local.get(bond.GetEndAtomIdx())
-        if a is None or b is None:
+    get_bond = mol.GetBondWithIdx
+    for bi in range(mol.GetNumBonds()):
+        bond = get_bond(bi)
+        a = local[bond.GetBeginAtomIdx()]
+        b = local[bond.GetEndAtomIdx()]
+        if a < 0 or b < 0:
+            if has_h_atoms and (a >= 0 or b >= 0):
+                hydrogens[a if a >= 0 else b] += 1
             continue
         ch = _BOND_CHAR.get(bond.GetBondType(), "~")
         adjacency[a].append((b, ch))
@@ -128,6 +150,7 @@ def graph_from_mol(mol) -> MolGraph:
         token=tuple(token),
         hydrogens=tuple(hydrogens),
         adjacency=tuple(tuple(sorted(nb)) for nb in adjacency),
+        first_token=tuple(f"{t}{len(nb)}h{h}" for t, nb, h in zip(token, adjacency, hydrogens)),
     )
 
 
@@ -162,30 +185,30 @@ def carbon_environment(graph: MolGraph, i: int, features: bool = True):
     codes : list of str
         ``codes[k]`` is the sphere-``k`` code, ``k = 0 .. MAX_SPHERE``.
     feats : list of str
-        Path features (empty when ``features`` is false).
+        Path features, the centre type first (empty when ``features`` is
+        false).
     """
     adjacency = graph.adjacency
-    token = graph.token
-    code = centre_token(graph, i)
+    hydrogens = graph.hydrogens
+    n = len(hydrogens)
+    code = f"{graph.token[i]}H{hydrogens[i]}"
     codes = [code]
     feats = []
-    ctype = centre_type(graph, i) if features else ""
     if features:
+        ctype = code + "|" + "".join(sorted({b for _, b in adjacency[i]}))
         feats.append(ctype)
-    dist = {i: 0}
-    label = {i: ""}
+    dist = [-1] * n
+    dist[i] = 0
+    label = [""] * n
     frontier = [i]
     for k in range(1, MAX_SPHERE + 1):
         found = {}
-        inner = 0
         multi = 0
+        token = graph.first_token if k == 1 else graph.token
         for p in frontier:
             lp = label[p]
             for q, b in adjacency[p]:
-                dq = dist.get(q)
-                if dq is not None:
-                    if dq == k - 1:
-                        inner += 1
+                if dist[q] >= 0:
                     continue
                 lab = lp + b + token[q]
                 old = found.get(q)
@@ -195,37 +218,49 @@ def carbon_environment(graph: MolGraph, i: int, features: bool = True):
                     multi += 1
                     if lab < old:
                         found[q] = lab
-        shell = sorted(found.values())
-        marks = ""
+        # bonds inside the new shell (odd rings through the centre)
+        inner = 0
+        if len(found) > 1:
+            for q in found:
+                for r, _ in adjacency[q]:
+                    if r in found:
+                        inner += 1
+        if found:
+            code = code + "/" + ",".join(sorted(found.values()))
+        else:
+            code = code + "/"
         if inner:
-            marks += f"%{inner // 2}"
+            code += f"%{inner // 2}"
         if multi:
-            marks += f"&{multi}"
-        code = code + "/" + ",".join(shell) + marks
+            code += f"&{multi}"
         codes.append(code)
         if features and k <= FEATURE_DISTANCE:
             if inner:
-                feats.append(f"{ctype}|closure{2 * k - 1}")
+                feats.append(f"{ctype}|ring{2 * k + 1}")
             if multi:
-                feats.append(f"{ctype}|closure{2 * k}")
-            for q, lab in found.items():
-                deg = len(adjacency[q])
-                if k == 1:
-                    feats.append(f"{ctype}|1|{lab}{deg}h{graph.hydrogens[q]}")
-                else:
-                    # bond into the atom + its token + degree
-                    tail = lab[-(len(token[q]) + 1):]
-                    feats.append(f"{ctype}|{k}|{tail}{deg}")
-        for q in found:
-            dist[q] = k
-            label[q] = found[q]
-        frontier = list(found)
-        if not frontier:
+                feats.append(f"{ctype}|ring{2 * k}")
+            pre = f"{ctype}|{k}|"
+            if k == 1:
+                for lab in found.values():
+                    feats.append(pre + lab)
+            elif k <= PATH_FEATURE_DISTANCE:
+                for q, lab in found.items():
+                    # the whole path, and bond + token of the atom
+                    feats.append(pre + lab)
+                    feats.append(pre + "*" + lab[-(len(token[q]) + 1):])
+            else:
+                for q, lab in found.items():
+                    feats.append(pre + "*" + lab[-(len(token[q]) + 1):])
+        if not found:
             # molecule exhausted: deeper codes repeat with an empty shell
             for _ in range(k + 1, MAX_SPHERE + 1):
                 code = code + "/"
                 codes.append(code)
             break
+        for q, lab in found.items():
+            dist[q] = k
+            label[q] = lab
+        frontier = list(found)
     return codes, feats
 
 

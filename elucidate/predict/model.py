@@ -6,18 +6,22 @@ Prediction for one carbon (method):
    HOSE-style after Bremser, *Anal. Chim. Acta* 1978, 103, 355 — from memory).
 2. Look up the deepest sphere ``s >= 1`` whose code has training examples;
    take the median shift ``m`` of those examples, their count ``n`` and
-   spread.
+   spread, and the median ``m'`` of the next shallower sphere.
 3. Compute the additive fallback ``r``: a per-atom-type base shift plus ridge
    increments of path features (distance <= 4), in the spirit of additive
    increment schemes such as Grant & Paul, *J. Am. Chem. Soc.* 1964, 86, 2984
-   (from memory), fitted by ridge regression on the training set.
-4. Blend: ``shift = r + alpha[s, n] * (m - r)``; ``alpha`` and the
-   uncertainty ``sigma[s, n]`` are calibrated at build time on
+   (from memory), plus one shrunken increment per environment code of
+   spheres 1–3 (a random-effect-like term: the ridge penalty weights each
+   code by its number of examples), all fitted jointly by ridge regression
+   on the training set.
+4. Blend: ``shift = r + a[s, n] * (m - r) + b[s, n] * (m' - r)``; the
+   weights (a linear stacking of the three estimates, least squares) and
+   the uncertainty ``sigma[s, n]`` are calibrated at build time on
    leave-one-constitution-out predictions of the training set.  When no
    sphere >= 1 matches, the fallback alone is used (reported sphere 0).
 
-Per-carbon results are cached by environment (code + features), so ranking
-many related candidates is cheap.
+Per-carbon results are cached by the sphere-5 code (which determines the
+fallback features too), so ranking many related candidates is cheap.
 """
 
 from __future__ import annotations
@@ -30,12 +34,16 @@ import numpy as np
 from .codes import MAX_SPHERE, carbon_environment, code_key, graph_from_mol
 
 __all__ = [
+    "CODE_FEATURE_SPHERES",
     "COUNT_BUCKETS",
     "count_bucket",
     "ShiftModel",
     "default_table_path",
     "load_default_model",
 ]
+
+#: Spheres whose codes carry a fallback increment of their own.
+CODE_FEATURE_SPHERES = (1, 2, 3)
 
 #: Lower bounds of the example-count buckets used for blending and sigma.
 COUNT_BUCKETS = (1, 2, 3, 5, 10, 20)
@@ -64,16 +72,17 @@ class ShiftModel:
     to make a table); predict with `predict_graph`.
     """
 
-    def __init__(self, keys, median, count, spread, ridge_weights, ridge_base,
+    def __init__(self, keys, median, count, spread, code_weight, ridge_weights, ridge_base,
                  h_means, alpha, sigma, meta):
         self._row = {int(k): i for i, k in enumerate(np.asarray(keys).tolist())}
         self._median = np.asarray(median, dtype=np.float64).tolist()
         self._count = np.asarray(count, dtype=np.int64).tolist()
         self._spread = np.asarray(spread, dtype=np.float64).tolist()
+        self._code_w = np.asarray(code_weight, dtype=np.float64).tolist()
         self._w = dict(ridge_weights)
         self._base = dict(ridge_base)
         self._h_means = {int(k): float(v) for k, v in h_means.items()}
-        self._alpha = [list(map(float, r)) for r in alpha]
+        self._alpha = [[(float(c[0]), float(c[1])) for c in r] for r in alpha]
         self._sigma = [list(map(float, r)) for r in sigma]
         self.meta = meta
         self._cache = {}
@@ -98,6 +107,7 @@ class ShiftModel:
                 median=np.array([self._median[i] for i in order], dtype=np.float32),
                 count=np.array([self._count[i] for i in order], dtype=np.int32),
                 spread=np.array([self._spread[i] for i in order], dtype=np.float32),
+                code_weight=np.array([self._code_w[i] for i in order], dtype=np.float32),
                 feature_names=np.array("\n".join(feats)),
                 feature_weights=np.array([self._w[f] for f in feats], dtype=np.float32),
                 base_names=np.array("\n".join(bases)),
@@ -116,6 +126,7 @@ class ShiftModel:
                 median=z["median"],
                 count=z["count"],
                 spread=z["spread"],
+                code_weight=z["code_weight"],
                 ridge_weights=dict(zip(feats, z["feature_weights"].astype(float).tolist())),
                 ridge_base=dict(zip(bases, z["base_values"].astype(float).tolist())),
                 h_means=header.pop("h_means"),
@@ -125,31 +136,45 @@ class ShiftModel:
             )
 
     # -- prediction ------------------------------------------------------
-    def fallback(self, feats, hydrogens: int) -> float:
-        """Additive fallback shift from path features (first = centre type)."""
+    def fallback(self, feats, codes, hydrogens: int) -> float:
+        """Additive fallback shift from path features (first = centre type)
+        and the code increments of spheres `CODE_FEATURE_SPHERES`."""
         base = self._base.get(feats[0])
         if base is None:
             return self._h_means.get(hydrogens, 100.0)
         w = self._w
-        return base + sum(w.get(f, 0.0) for f in feats[1:])
+        total = base + sum(w.get(f, 0.0) for f in sorted(feats[1:]))
+        row = self._row
+        for s in CODE_FEATURE_SPHERES:
+            i = row.get(code_key(codes[s]))
+            if i is not None:
+                total += self._code_w[i]
+        return total
 
     def lookup(self, codes):
-        """Deepest sphere >= 1 with examples: ``(sphere, median, count, spread)``;
-        ``(0, nan, 0, nan)`` when none matches."""
+        """Deepest sphere >= 1 with examples.
+
+        Returns ``(sphere, median, count, spread, shallower median)``; the
+        last is the median one sphere up (equal to ``median`` at sphere 1);
+        ``(0, nan, 0, nan, nan)`` when nothing matches.
+        """
         row = self._row
         for s in range(MAX_SPHERE, 0, -1):
             i = row.get(code_key(codes[s]))
             if i is not None:
-                return s, self._median[i], self._count[i], self._spread[i]
-        return 0, float("nan"), 0, float("nan")
+                j = row.get(code_key(codes[s - 1])) if s > 1 else None
+                up = self._median[j] if j is not None else self._median[i]
+                return s, self._median[i], self._count[i], self._spread[i], up
+        nan = float("nan")
+        return 0, nan, 0, nan, nan
 
-    def combine(self, sphere, median, count, spread, fb):
-        """Blend table median and fallback; return ``(shift, sigma)``."""
+    def combine(self, sphere, median, count, spread, up, fb):
+        """Blend table medians and fallback; return ``(shift, sigma)``."""
         if sphere == 0:
             return fb, self._sigma[0][0]
         b = count_bucket(count)
-        a = self._alpha[sphere][b]
-        shift = fb + a * (median - fb)
+        a1, a2 = self._alpha[sphere][b]
+        shift = fb + a1 * (median - fb) + a2 * (up - fb)
         sig = self._sigma[sphere][b]
         if count >= 3 and spread == spread:
             sig = (0.5 * sig * sig + 0.5 * spread * spread) ** 0.5
@@ -169,13 +194,14 @@ class ShiftModel:
         for i, sym in enumerate(graph.symbol):
             if sym != "C":
                 continue
-            codes, feats = carbon_environment(graph, i)
-            key = codes[MAX_SPHERE] + "\t" + "\t".join(sorted(feats))
+            codes, _ = carbon_environment(graph, i, features=False)
+            key = codes[MAX_SPHERE]
             hit = cache.get(key)
             if hit is None:
-                s, m, n, spread = self.lookup(codes)
-                fb = self.fallback(feats, graph.hydrogens[i])
-                shift, sig = self.combine(s, m, n, spread, fb)
+                _, feats = carbon_environment(graph, i)
+                s, m, n, spread, up = self.lookup(codes)
+                fb = self.fallback(feats, codes, graph.hydrogens[i])
+                shift, sig = self.combine(s, m, n, spread, up, fb)
                 hit = (shift, sig, s)
                 if len(cache) > 500_000:
                     cache.clear()
