@@ -26,7 +26,7 @@ from .formula import parse_formula
 from .pipeline import SolveSettings, explain_constraints, solve
 from .spectrum.peaks import peaks_from_records
 
-__all__ = ["read_cases", "run_bench", "format_bench_table", "BANDS"]
+__all__ = ["read_cases", "run_bench", "format_bench_table", "calibration_table", "BANDS"]
 
 BANDS = ((4, 8), (9, 12), (13, 16), (17, 22))
 
@@ -170,6 +170,7 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
         lines.append(f"{b:>6} " + stats(groups[b]))
     lines.append(f"{'all':>6} " + stats(rows))
     lines.append("surv = the answer passes every default constraint (checked on the answer itself)")
+    lines.extend(calibration_table(rows))
     killers: dict[str, int] = {}
     for r in rows:
         for name in r.get("answer_failed_constraints", []):
@@ -180,3 +181,23 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
     if errors:
         lines.append(f"{len(errors)} case(s) rejected as input errors, e.g. {errors[0]['id']}: {errors[0]['error']}")
     return "\n".join(lines)
+
+
+def calibration_table(rows: list[dict], edges=(0.0, 0.2, 0.4, 0.6, 0.8, 0.95, 1.0001)) -> list[str]:
+    """Predicted probability of the top candidate (binned) vs how often it was right.
+
+    >>> rows = [{"top_probability": 0.9, "rank": 1}, {"top_probability": 0.85, "rank": 2}]
+    >>> for line in calibration_table(rows):
+    ...     print(line)
+    calibration (top candidate): probability bin, cases, mean probability, observed top-1
+       0.80-0.95     2    0.875    0.500
+    """
+    out = ["calibration (top candidate): probability bin, cases, mean probability, observed top-1"]
+    for lo, hi in zip(edges, edges[1:]):
+        sel = [r for r in rows if r.get("top_probability") is not None and lo <= r["top_probability"] < hi]
+        if not sel:
+            continue
+        mean_p = sum(r["top_probability"] for r in sel) / len(sel)
+        hit = sum(1 for r in sel if r["rank"] == 1) / len(sel)
+        out.append(f"  {lo:5.2f}-{min(hi, 1.0):4.2f} {len(sel):5d}    {mean_p:.3f}    {hit:.3f}")
+    return out
