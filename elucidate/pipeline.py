@@ -317,13 +317,17 @@ def solve(
         bound = _INITIAL_BOUND
         workers = _worker_count(settings)
         state = _PassState(formula, valences, settings.charged_nitrogen, cons)
-        executor = _ShardPool(state, workers) if workers > 1 else None
+        executor = _ShardPool(state, workers, pool_size) if workers > 1 else None
+        dropped_min = math.inf
+        n_found = 0
         runs = []
         try:
             while True:
                 outcome = (executor.run(bound, gen_deadline - time.monotonic()) if executor
-                           else _run_pass(state, bound, gen_deadline - time.monotonic(), 0, 1, False))
+                           else _run_pass(state, bound, gen_deadline - time.monotonic(), 0, 1, pool_size, False))
                 runs.append(outcome)
+                dropped_min = min(dropped_min, outcome.dropped_min)
+                n_found = max(n_found, outcome.n_found)
                 for smi, (cost, mol) in outcome.found.items():
                     known = found.get(smi)
                     if known is None or cost < known[0]:  # another Kekulé form may cost less
@@ -335,13 +339,17 @@ def solve(
                     exhausted = True
                     break
                 proven_bound = bound
-                if len(found) >= pool_size:
+                if outcome.n_found >= pool_size:
                     break
                 bound *= _BOUND_GROWTH
         finally:
             if executor is not None:
                 executor.close()
         pool = sorted(((cost, smi, mol) for smi, (cost, mol) in found.items()), key=lambda e: (e[0], e[1]))
+        if dropped_min < math.inf:
+            # structures let go during the passes cost at least this
+            proven_bound = _lower_bound(exhausted, proven_bound, dropped_min)
+            exhausted = False
         if len(pool) > pool_size:
             # not fully scored: everything beyond the pool costs at least this
             proven_bound = _lower_bound(exhausted, proven_bound, pool[pool_size][0])
@@ -354,10 +362,7 @@ def solve(
                 proven_bound = _lower_bound(exhausted, proven_bound, pool[k][0])
                 exhausted = False
                 break
-            written = mol is not None
-            if mol is None:
-                mol = Chem.MolFromSmiles(smi)
-            item = _score(Structure(smi, mol), peaks, prior, written)
+            item = _score(Structure(smi, mol), peaks, prior, False)
             if item is not None:
                 scored.append(item)
 
@@ -369,7 +374,7 @@ def solve(
         status, cost_bound = "complete up to cost", round(proven_bound, 3)
     else:
         status, cost_bound = "stopped at the time limit", None
-    counter = len(found)
+    counter = n_found if steer else len(found)
     warnings = list(peaks.warnings)
     if status == "stopped at the time limit":
         warnings.append(
@@ -426,6 +431,8 @@ class _PassOutcome:
     filter_log: list
     checked: int
     rejected: int
+    dropped_min: float = math.inf  # lowest cost among structures found but not kept
+    n_found: int = 0  # distinct structures found in the pass
 
 
 def _shard_accept(base, shard: int, n: int):
@@ -441,8 +448,14 @@ def _shard_accept(base, shard: int, n: int):
     return accept
 
 
-def _run_pass(state: _PassState, bound: float, limit: float, shard: int, n: int, keep_mols: bool) -> _PassOutcome:
-    """One branch-and-bound pass at ``bound`` over one shard of distributions."""
+def _run_pass(state: _PassState, bound: float, limit: float, shard: int, n: int, keep: int,
+              as_binary: bool) -> _PassOutcome:
+    """One branch-and-bound pass at ``bound`` over one shard of distributions.
+
+    Keeps the ``keep`` structures of lowest approximate cost (with their
+    molecules, as RDKit binaries when ``as_binary``) and the lowest cost
+    among those it let go, so the caller can state an honest bound.
+    """
     rule = state.cons.row_check_factory
     rule.bound = bound
     rule.bound_pruned = rule.checked = rule.rejected = 0
@@ -452,46 +465,60 @@ def _run_pass(state: _PassState, bound: float, limit: float, shard: int, n: int,
         accept_types=_shard_accept(state.cons.accept, shard, n) if n > 1 else state.cons.accept,
         row_check_factory=rule, time_limit=max(limit, 1e-3),
     )
-    found: dict[str, tuple[float, Chem.Mol | None]] = {}
+    found: dict[str, tuple[float, Chem.Mol]] = {}
+    seen: set[str] = set()
+    dropped_min = math.inf
     for structure in run:
+        seen.add(structure.smiles)
         known = found.get(structure.smiles)
-        if known is None or rule.last_total < known[0]:
-            found[structure.smiles] = (rule.last_total, structure.mol if keep_mols else None)
+        if known is None or rule.last_total < known[0]:  # another Kekulé form may cost less
+            found[structure.smiles] = (rule.last_total, structure.mol)
+        if len(found) > 2 * keep:
+            ordered = sorted(found.items(), key=lambda kv: (kv[1][0], kv[0]))
+            dropped_min = min(dropped_min, ordered[keep][1][0])
+            found = dict(ordered[:keep])
+    if len(found) > keep:
+        ordered = sorted(found.items(), key=lambda kv: (kv[1][0], kv[0]))
+        dropped_min = min(dropped_min, ordered[keep][1][0])
+        found = dict(ordered[:keep])
+    if as_binary:
+        found = {smi: (cost, mol.ToBinary()) for smi, (cost, mol) in found.items()}
     return _PassOutcome(found, run.complete, rule.bound_pruned, run.distributions, run.filter_log,
-                        rule.checked, rule.rejected)
+                        rule.checked, rule.rejected, dropped_min, len(seen))
 
 
 _FORK_STATE: _PassState | None = None
 
 
 def _pass_in_child(args) -> _PassOutcome:
-    bound, limit, shard, n = args
-    return _run_pass(_FORK_STATE, bound, limit, shard, n, False)
+    bound, limit, shard, n, keep = args
+    return _run_pass(_FORK_STATE, bound, limit, shard, n, keep, True)
 
 
 class _ShardPool:
     """Worker processes (fork) that run one pass on their shard each."""
 
-    def __init__(self, state: _PassState, workers: int):
+    def __init__(self, state: _PassState, workers: int, keep: int):
         global _FORK_STATE
         import multiprocessing
 
         _FORK_STATE = state
         self.n = workers
+        self.keep = keep
         self.pool = multiprocessing.get_context("fork").Pool(workers)
 
     def run(self, bound: float, limit: float) -> _PassOutcome:
-        parts = self.pool.map(_pass_in_child, [(bound, limit, i, self.n) for i in range(self.n)])
+        parts = self.pool.map(_pass_in_child, [(bound, limit, i, self.n, self.keep) for i in range(self.n)])
         found: dict = {}
-        for part in parts:
-            for smi, entry in part.found.items():
-                if smi not in found or entry[0] < found[smi][0]:
-                    found[smi] = entry
+        for part in parts:  # shards hold disjoint atom-type distributions, hence disjoint structures
+            for smi, (cost, binary) in part.found.items():
+                found[smi] = (cost, Chem.Mol(binary))
         log = [(name, sum(p.filter_log[i][1] for p in parts), sum(p.filter_log[i][2] for p in parts))
                for i, (name, _, _) in enumerate(parts[0].filter_log)]
         return _PassOutcome(found, all(p.complete for p in parts), sum(p.bound_pruned for p in parts),
                             sum(p.distributions for p in parts), log,
-                            sum(p.checked for p in parts), sum(p.rejected for p in parts))
+                            sum(p.checked for p in parts), sum(p.rejected for p in parts),
+                            min(p.dropped_min for p in parts), sum(p.n_found for p in parts))
 
     def close(self):
         self.pool.terminate()
