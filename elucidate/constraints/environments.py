@@ -40,7 +40,7 @@ from pathlib import Path
 from typing import Iterable, Sequence
 
 import numpy as np
-from rdkit import Chem
+from rdkit import Chem, rdBase
 
 __all__ = [
     "EnvironmentTable",
@@ -142,6 +142,7 @@ def kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
     if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
         return [mol]
     forms = []
+    blocker = rdBase.BlockLogs()  # resonance enumeration may log rejected forms
     try:
         supplier = Chem.ResonanceMolSupplier(mol, Chem.ResonanceFlags.KEKULE_ALL)
         for i, form in enumerate(supplier):

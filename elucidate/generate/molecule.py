@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from typing import Sequence
 
-from rdkit import Chem
+from rdkit import Chem, rdBase
 
 from .atomtypes import AtomType
 
@@ -44,10 +44,12 @@ def build_mol(types: Sequence[AtomType], matrix: Sequence[Sequence[int]]) -> Che
             if b:
                 rw.AddBond(i, j, _BOND[b])
     mol = rw.GetMol()
-    try:
-        Chem.SanitizeMol(mol)
-    except (ValueError, RuntimeError):  # valence/kekulization problems
-        return None
+    # Graphs RDKit rejects are expected here; keep its error log quiet.
+    with rdBase.BlockLogs():
+        try:
+            Chem.SanitizeMol(mol)
+        except (ValueError, RuntimeError):  # valence/kekulization problems
+            return None
     return mol
 
 
