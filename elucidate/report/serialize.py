@@ -44,6 +44,7 @@ def result_to_dict(result: SolveResult) -> dict:
             "charged_nitrogen": s.charged_nitrogen,
             "allow_all": s.allow_all,
             "require": list(s.require),
+            "scaffold": s.scaffold,
             "forbid": list(s.forbid),
             "max_rings": s.max_rings,
             "min_ring_size": s.min_ring_size,
