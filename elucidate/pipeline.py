@@ -187,7 +187,7 @@ def _constraints(formula: Formula, peaks: PeakList, settings: SolveSettings) -> 
         filters += implausible_motif_filters(only_default=True)
     filters += smarts_filters(settings.require, settings.forbid)
     if settings.scaffold:
-        from .workflows.scaffold import scaffold_filter
+        from .constraints.scaffold import scaffold_filter
 
         filters.append(scaffold_filter(settings.scaffold, formula))
     filters += ring_filters(settings.max_rings, settings.min_ring_size, settings.max_ring_size)

@@ -15,7 +15,7 @@ from elucidate import api
 from elucidate.cli import main
 from elucidate.errors import InputError
 from elucidate.formula import parse_formula
-from elucidate.workflows.scaffold import murcko_scaffold, parse_scaffold, scaffold_filter
+from elucidate.constraints.scaffold import murcko_scaffold, parse_scaffold, scaffold_filter
 
 P_CRESOL = "153.0 C, 130.1 CH, 130.0 C, 115.2 CH, 20.5 CH3"
 CYCLOHEXANONE = "212.0 C, 42.0 CH2, 27.1 CH2, 25.1 CH2"

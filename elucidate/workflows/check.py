@@ -53,7 +53,7 @@ from ..errors import InputError
 from ..formula import Formula, parse_formula
 from ..rank.assignment import Assignment
 from ..rank.likelihood import NU
-from .scaffold import murcko_scaffold
+from ..constraints.scaffold import murcko_scaffold
 
 __all__ = [
     "PeakFit",
@@ -257,7 +257,7 @@ def _search_alternatives(formula, peaks, expected: Chem.Mol, expected_cost: floa
     """Stages: positional isomers, same scaffold (generator + filter), open formula."""
     from ..pipeline import SolveSettings, rank_structure, solve
     from .regio import positional_isomers
-    from .scaffold import parse_scaffold
+    from ..constraints.scaffold import parse_scaffold
 
     canon_expected = _canon(expected)
     deadline = time.monotonic() + time_limit
