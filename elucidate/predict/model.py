@@ -14,10 +14,11 @@ Prediction for one carbon (method):
    spheres 1–3 (a random-effect-like term: the ridge penalty weights each
    code by its number of examples), all fitted jointly by ridge regression
    on the training set.
-4. Blend: ``shift = r + a[s, n] * (m - r) + b[s, n] * (m' - r)``; the
-   weights (a linear stacking of the three estimates, least squares) and
-   the uncertainty ``sigma[s, n]`` are calibrated at build time on
-   leave-one-constitution-out predictions of the training set.  When no
+4. Blend: ``shift = r + a * (m - r) + b * (m' - r)``; the weights ``a, b``
+   (a linear stacking of the three estimates, least squares per sphere,
+   count bucket, spread bucket and H count) and the uncertainty
+   ``sigma[s, n]`` are calibrated at build time on leave-one-constitution-out
+   predictions of the training set.  When no
    sphere >= 1 matches, the fallback alone is used (reported sphere 0).
 
 Per-carbon results are cached by the sphere-5 code (which determines the
@@ -36,6 +37,7 @@ from .codes import MAX_SPHERE, carbon_environment, code_key, graph_from_mol
 __all__ = [
     "CODE_FEATURE_SPHERES",
     "COUNT_BUCKETS",
+    "SPREAD_BUCKETS",
     "count_bucket",
     "ShiftModel",
     "default_table_path",
@@ -44,6 +46,9 @@ __all__ = [
 
 #: Spheres whose codes carry a fallback increment of their own.
 CODE_FEATURE_SPHERES = (1, 2, 3)
+
+#: Spread (ppm) bounds of the buckets used for blending weights.
+SPREAD_BUCKETS = (0.5, 1.5, 3.0)
 
 #: Lower bounds of the example-count buckets used for blending and sigma.
 COUNT_BUCKETS = (1, 2, 3, 5, 10, 20)
@@ -82,7 +87,8 @@ class ShiftModel:
         self._w = dict(ridge_weights)
         self._base = dict(ridge_base)
         self._h_means = {int(k): float(v) for k, v in h_means.items()}
-        self._alpha = [[(float(c[0]), float(c[1])) for c in r] for r in alpha]
+        self._alpha = [[[[(float(c[0]), float(c[1])) for c in hs] for hs in sb] for sb in r]
+                       for r in alpha]
         self._sigma = [list(map(float, r)) for r in sigma]
         self.meta = meta
         self._cache = {}
@@ -168,12 +174,14 @@ class ShiftModel:
         nan = float("nan")
         return 0, nan, 0, nan, nan
 
-    def combine(self, sphere, median, count, spread, up, fb):
+    def combine(self, sphere, median, count, spread, up, fb, hydrogens=0):
         """Blend table medians and fallback; return ``(shift, sigma)``."""
         if sphere == 0:
             return fb, self._sigma[0][0]
         b = count_bucket(count)
-        a1, a2 = self._alpha[sphere][b]
+        sp = spread if spread == spread else 0.0
+        sb = sum(1 for t in SPREAD_BUCKETS if sp >= t)
+        a1, a2 = self._alpha[sphere][b][sb][min(max(hydrogens, 0), 3)]
         shift = fb + a1 * (median - fb) + a2 * (up - fb)
         sig = self._sigma[sphere][b]
         if count >= 3 and spread == spread:
@@ -201,7 +209,7 @@ class ShiftModel:
                 _, feats = carbon_environment(graph, i)
                 s, m, n, spread, up = self.lookup(codes)
                 fb = self.fallback(feats, codes, graph.hydrogens[i])
-                shift, sig = self.combine(s, m, n, spread, up, fb)
+                shift, sig = self.combine(s, m, n, spread, up, fb, graph.hydrogens[i])
                 hit = (shift, sig, s)
                 if len(cache) > 500_000:
                     cache.clear()
