@@ -147,7 +147,8 @@ class ShiftModel:
         and the code increments of spheres `CODE_FEATURE_SPHERES`."""
         base = self._base.get(feats[0])
         if base is None:
-            return self._h_means.get(hydrogens, 100.0)
+            # unseen centre type: mean shift of carbons with as many H (CH4 -> CH3)
+            return self._h_means.get(min(hydrogens, 3), 100.0)
         w = self._w
         total = base + sum(w.get(f, 0.0) for f in sorted(feats[1:]))
         row = self._row
