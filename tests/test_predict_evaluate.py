@@ -78,8 +78,10 @@ def test_bench_missing_file_is_input_error(tmp_path):
 def test_build_command_small_sample(tmp_path):
     out = tmp_path / "t.npz"
     result = CliRunner().invoke(build_table_command, ["--data", str(TRAIN), "--output", str(out),
-                                                      "--limit", "150", "--rounds", "1"])
+                                                      "--limit", "150", "--rounds", "1",
+                                                      "--cache-dir", str(tmp_path / "cache")])
     assert result.exit_code == 0, result.output
     assert out.is_file()
+    assert list((tmp_path / "cache").glob("assigned-*-limit150.jsonl.gz"))
     text = result.output  # progress lines (stderr) may be mixed in before the JSON
     assert json.loads(text[text.index("{"):])["counts"]["spectra_used"] <= 150

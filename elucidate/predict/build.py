@@ -801,9 +801,11 @@ def iter_assigned_training(data_path, cache_dir=None, limit=None) -> Iterator[tu
 @click.option("--limit", type=int, default=None, help="Use only the first N spectra (quick trial).")
 @click.option("--rounds", type=int, default=BuildSettings.rounds, show_default=True,
               help="Assignment re-estimation rounds.")
-def build_table_command(data_path, output_path, limit, rounds):
+@click.option("--cache-dir", type=click.Path(file_okay=False), default=None,
+              help="Where to write the recovered assignment (default: cache/ in the repository).")
+def build_table_command(data_path, output_path, limit, rounds, cache_dir):
     """Build the 13C shift table from training spectra (deterministic)."""
     header = build_table(data_path, output_path, limit=limit,
-                         settings=BuildSettings(rounds=rounds),
+                         settings=BuildSettings(rounds=rounds), cache_dir=cache_dir,
                          progress=lambda msg: click.echo(msg, err=True))
     click.echo(json.dumps({k: header[k] for k in ("counts", "loo_mae_ppm", "loo_p99_ppm")}, indent=2))
