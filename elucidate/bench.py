@@ -14,62 +14,18 @@ ranked candidates; ranks compare stereo-free canonical SMILES.
 
 from __future__ import annotations
 
-import json
 import statistics
-from pathlib import Path
 from typing import Callable
 
 from rdkit import Chem
 
+from .cases import BANDS, read_cases
 from .errors import InputError
 from .formula import parse_formula
 from .pipeline import SolveSettings, explain_constraints, solve
 from .spectrum.peaks import peaks_from_records
 
 __all__ = ["read_cases", "run_bench", "format_bench_table", "calibration_table", "BANDS"]
-
-BANDS = ((4, 8), (9, 12), (13, 16), (17, 22))
-
-
-def read_cases(path: str, limit: int | None = None, heavy: tuple[int, int] | None = None,
-               every: int = 1) -> list[dict]:
-    """Read and validate a JSON-lines case file.
-
-    ``heavy`` keeps cases whose formula has that many heavy atoms (inclusive
-    range); ``every`` keeps every n-th remaining case; ``limit`` stops after
-    that many cases.
-    """
-    p = Path(path)
-    if not p.is_file():
-        raise InputError(f"case file {path!r} not found; give a JSON-lines file of cases")
-    cases = []
-    kept = 0
-    with p.open(encoding="utf-8") as fh:
-        for lineno, line in enumerate(fh, 1):
-            if not line.strip():
-                continue
-            try:
-                case = json.loads(line)
-            except json.JSONDecodeError as exc:
-                raise InputError(f"{path}: line {lineno} is not valid JSON ({exc.msg})") from None
-            missing = [k for k in ("formula", "peaks", "answer") if k not in case]
-            if missing:
-                raise InputError(f"{path}: line {lineno} lacks {', '.join(missing)}; each case needs formula, peaks, answer")
-            case.setdefault("id", f"line-{lineno}")
-            if heavy is not None:
-                n_heavy = parse_formula(case["formula"]).heavy_atoms
-                if not heavy[0] <= n_heavy <= heavy[1]:
-                    continue
-            kept += 1
-            if (kept - 1) % every:
-                continue
-            cases.append(case)
-            if limit is not None and len(cases) >= limit:
-                break
-    if not cases:
-        raise InputError(f"case file {path!r} holds no cases")
-    return cases
-
 
 def _canon(smiles: str) -> str | None:
     mol = Chem.MolFromSmiles(smiles)

@@ -14,10 +14,9 @@ methods; forensic and QC decisions follow the lab's accredited procedures.
 
 from __future__ import annotations
 
-import heapq
 import math
 import time
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Callable, Sequence
 
 from rdkit import Chem
@@ -573,16 +572,6 @@ def _score(structure, peaks, prior, smiles_written: bool = True) -> "_Scored | N
     p = prior(structure.mol) if prior is not None else 0.0
     return _Scored(assignment.cost + p, structure.smiles, assignment, p, predicted,
                    _smiles_order(structure.mol, smiles_written))
-
-
-class _neg_key(str):
-    """String whose ordering is reversed (so heap ties prefer smaller SMILES)."""
-
-    def __lt__(self, other):  # pragma: no cover - trivial
-        return str.__gt__(self, other)
-
-    def __gt__(self, other):  # pragma: no cover - trivial
-        return str.__lt__(self, other)
 
 
 def _finalise(ranked: Sequence[_Scored], top: int) -> list[Candidate]:

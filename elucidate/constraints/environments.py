@@ -142,19 +142,20 @@ def kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
     if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
         return [mol]
     forms = []
-    blocker = rdBase.BlockLogs()  # resonance enumeration may log rejected forms
-    try:
-        supplier = Chem.ResonanceMolSupplier(mol, Chem.ResonanceFlags.KEKULE_ALL)
-        for i, form in enumerate(supplier):
-            if form is None:
-                continue
-            if any(a.GetFormalCharge() != b.GetFormalCharge() for a, b in zip(form.GetAtoms(), mol.GetAtoms())):
-                continue
-            forms.append(form)
-            if i + 1 >= limit:
-                break
-    except (RuntimeError, ValueError):
-        forms = []
+    # resonance enumeration logs the forms it rejects; keep that quiet
+    with rdBase.BlockLogs():
+        try:
+            supplier = Chem.ResonanceMolSupplier(mol, Chem.ResonanceFlags.KEKULE_ALL)
+            for i, form in enumerate(supplier):
+                if form is None:
+                    continue
+                if any(a.GetFormalCharge() != b.GetFormalCharge() for a, b in zip(form.GetAtoms(), mol.GetAtoms())):
+                    continue
+                forms.append(form)
+                if i + 1 >= limit:
+                    break
+        except (RuntimeError, ValueError):
+            forms = []
     if not forms:
         kek = Chem.Mol(mol)
         try:

@@ -17,19 +17,18 @@ Krause, Kuhn, *J. Chem. Inf. Comput. Sci.* 2003, 43, 1733 (from memory).
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import click
 import numpy as np
 from rdkit import Chem, RDLogger
 
+from ..cases import BANDS, read_cases
 from ..errors import InputError
 from .model import ShiftModel, load_default_model
 
 __all__ = ["BANDS", "match_errors", "evaluate_cases", "predictor_bench_command"]
 
 #: Heavy-atom bands reported separately (inclusive bounds).
-BANDS = ((4, 8), (9, 12), (13, 16), (17, 22))
 
 _MULT_H = {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}
 
@@ -115,30 +114,19 @@ def evaluate_cases(cases_path, model: ShiftModel | None = None, use_mult=True) -
     dict
         Overall and per-band summaries and sphere fractions.
     """
-    path = Path(cases_path)
-    if not path.is_file():
-        raise InputError(f"case file {path} not found; give a JSON-lines file of cases")
+    cases = read_cases(cases_path, required=("answer", "peaks"))
     RDLogger.DisableLog("rdApp.*")
     model = model or load_default_model()
     all_errs = []
     by_band = {b: [] for b in BANDS}
     n_cases = 0
-    with open(path, encoding="utf-8") as fh:
-        for line_no, line in enumerate(fh, 1):
-            if not line.strip():
-                continue
-            try:
-                case = json.loads(line)
-            except json.JSONDecodeError as exc:
-                raise InputError(f"{path}:{line_no}: not valid JSON ({exc.msg}); one case per line") from None
-            if "answer" not in case or "peaks" not in case:
-                raise InputError(f"{path}:{line_no}: a case needs 'answer' and 'peaks'")
-            heavy, errs = _case_errors(model, case, use_mult)
-            n_cases += 1
-            all_errs.extend(errs)
-            for lo, hi in BANDS:
-                if lo <= heavy <= hi:
-                    by_band[(lo, hi)].extend(errs)
+    for case in cases:
+        heavy, errs = _case_errors(model, case, use_mult)
+        n_cases += 1
+        all_errs.extend(errs)
+        for lo, hi in BANDS:
+            if lo <= heavy <= hi:
+                by_band[(lo, hi)].extend(errs)
     spheres = np.array([x[2] for x in all_errs]) if all_errs else np.zeros(0)
     return {
         "cases": n_cases,
