@@ -36,7 +36,7 @@ from .constraints.spectral import (
 from .constraints.structural import implausible_motif_filters, ring_filters, smarts_filters
 from .errors import InputError
 from .formula import Formula, parse_formula
-from .generate import WIDE_VALENCES, AtomType, Structure, StructureFilter, enumerate_isomers
+from .generate import WIDE_VALENCES, AtomType, Structure, StructureFilter, _charges_paired, enumerate_isomers
 from .generate.atomtypes import type_distributions
 from .predict import predict_mol
 from .rank.assignment import Assignment, CarbonClass, LineEntry, assign_lines
@@ -317,13 +317,14 @@ def solve(
         workers = _worker_count(settings)
         state = _PassState(formula, valences, settings.charged_nitrogen, cons)
         executor = _ShardPool(state, workers, pool_size) if workers > 1 else None
+        orderly_deadline = start + (gen_deadline - start) * _ORDERLY_SHARE
         dropped_min = math.inf
         n_found = 0
         runs = []
         try:
             while True:
-                outcome = (executor.run(bound, gen_deadline - time.monotonic()) if executor
-                           else _run_pass(state, bound, gen_deadline - time.monotonic(), 0, 1, pool_size, False))
+                outcome = (executor.run(bound, orderly_deadline - time.monotonic()) if executor
+                           else _run_pass(state, bound, orderly_deadline - time.monotonic(), 0, 1, pool_size, False))
                 runs.append(outcome)
                 dropped_min = min(dropped_min, outcome.dropped_min)
                 n_found = max(n_found, outcome.n_found)
@@ -338,12 +339,40 @@ def solve(
                     exhausted = True
                     break
                 proven_bound = bound
-                if outcome.n_found >= pool_size:
+                # full once the pool holds structures proven cheapest: those
+                # whose full cost is within the bound just proven
+                if sum(1 for cost, _m in found.values() if cost <= bound) >= pool_size:
                     break
                 bound *= _BOUND_GROWTH
         finally:
             if executor is not None:
                 executor.close()
+        if not exhausted and not (proven_bound is not None
+                                  and sum(1 for c, _m in found.values() if c <= proven_bound) >= pool_size) \
+                and time.monotonic() < gen_deadline:
+            # The orderly pass did not finish in its share of the time: list
+            # structures plan by plan in increasing cost (CP-SAT), which
+            # proves its own bound whatever time is left.
+            plan_out = _plan_search(state, pool_size, gen_deadline, workers)
+            plan_runs = plan_out
+            merged = {smi: (rule.structure_cost(mol), mol) for smi, (_c, mol) in found.items()}
+            for smi, (cost, mol) in plan_out.found.items():
+                known = merged.get(smi)
+                if known is None or cost < known[0]:
+                    merged[smi] = (cost, mol)
+            found = merged
+            n_found = max(n_found, len(found))
+            if plan_out.exhausted:
+                exhausted, proven_bound, dropped_min = True, None, math.inf
+            else:
+                # every structure outside the plan search's list costs at least its bound
+                proven_bound = max(proven_bound if proven_bound is not None else -math.inf,
+                                   plan_out.lower, 0.0)
+                if dropped_min < math.inf:
+                    proven_bound = min(proven_bound, max(dropped_min, plan_out.lower))
+                    dropped_min = math.inf
+        else:
+            plan_runs = None
         pool = sorted(((cost, smi, mol) for smi, (cost, mol) in found.items()), key=lambda e: (e[0], e[1]))
         if dropped_min < math.inf:
             # structures let go during the passes cost at least this
@@ -370,10 +399,13 @@ def solve(
     if exhausted:
         status, cost_bound = "complete", None
     elif proven_bound is not None:
-        status, cost_bound = "complete up to cost", round(proven_bound, 3)
+        # rounded down: the stated bound must never exceed the proven one
+        status, cost_bound = "complete up to cost", math.floor(proven_bound * 1000) / 1000
     else:
         status, cost_bound = "stopped at the time limit", None
     counter = n_found if steer else len(found)
+    if not steer:
+        plan_runs = None
     warnings = list(peaks.warnings)
     if status == "stopped at the time limit":
         warnings.append(
@@ -383,7 +415,7 @@ def solve(
     elif status == "complete up to cost":
         warnings.append(
             f"fit-steered search: every structure not listed has an approximate (environment) cost "
-            f"of at least {proven_bound:.2f}; probabilities are relative to the structures listed"
+            f"of at least {cost_bound:.3f}; probabilities are relative to the structures listed"
         )
     if not candidates:
         warnings.append(
@@ -399,6 +431,9 @@ def solve(
     if steer:
         log.append((f"approximate-cost pool (best {pool_size}; {len(runs)} deepening passes)",
                     counter, min(counter, pool_size)))
+        if plan_runs is not None:
+            log.append((f"environment plans in increasing cost (CP-SAT, {plan_runs.solves} solves)",
+                        plan_runs.plans, len(plan_runs.found)))
     return SolveResult(
         formula=formula,
         peaks=peaks,
@@ -468,10 +503,12 @@ def _run_pass(state: _PassState, bound: float, limit: float, shard: int, n: int,
     seen: set[str] = set()
     dropped_min = math.inf
     for structure in run:
+        if structure.smiles in seen:
+            continue
         seen.add(structure.smiles)
-        known = found.get(structure.smiles)
-        if known is None or rule.last_total < known[0]:  # another Kekulé form may cost less
-            found[structure.smiles] = (rule.last_total, structure.mol)
+        # the full approximate cost (lines covered, cheapest Kekulé form) is
+        # never below the running sum the branch and bound used
+        found[structure.smiles] = (rule.structure_cost(structure.mol), structure.mol)
         if len(found) > 2 * keep:
             ordered = sorted(found.items(), key=lambda kv: (kv[1][0], kv[0]))
             dropped_min = min(dropped_min, ordered[keep][1][0])
@@ -544,6 +581,78 @@ def _lower_bound(exhausted: bool, proven: float | None, cut: float) -> float | N
     if proven is not None:
         return min(proven, cut)
     return None
+
+
+#: Share of the generation time given to the orderly deepening search before
+#: the plan-by-plan search takes over.
+_ORDERLY_SHARE = 0.4
+
+
+def _plan_costs(cons: "_Constraints", peaks_hydrogens):
+    from .generate.planned import PlanCosts
+
+    rule = cons.row_check_factory
+    return PlanCosts(rule.line_costs, rule.atom_rarity, peaks_hydrogens)
+
+
+def _plan_shard(state: "_PassState", shard: int, n: int, keep: int, deadline: float, as_binary: bool):
+    from .generate.planned import search_plans
+
+    cons = state.cons
+    dists = list(type_distributions(state.formula, state.valences, charged_nitrogen=state.charged_nitrogen,
+                                    accept=cons.accept))
+    half = None
+    if n == 2 and len(dists) < 2 * n:
+        half = shard  # few distributions: both processes share each one
+    elif n > 1:
+        dists = [d for k, d in enumerate(dists) if k % n == shard]
+    costs = _plan_costs(cons, [ln[0] for ln in cons.row_check_factory._lines])
+
+    def accept_mol(mol):
+        if state.charged_nitrogen and not _charges_paired(mol):
+            return False
+        return all(f.keep(mol) for f in cons.filters)
+
+    out = search_plans(dists, costs, keep=keep, deadline=deadline, accept_mol=accept_mol, half=half)
+    if as_binary:
+        out.found = {smi: (c, mol.ToBinary()) for smi, (c, mol) in out.found.items()}
+    return out
+
+
+def _plan_in_child(args):
+    shard, n, keep, deadline = args
+    return _plan_shard(_FORK_STATE, shard, n, keep, deadline, True)
+
+
+def _plan_search(state: "_PassState", keep: int, deadline: float, workers: int):
+    """Plan-by-plan search over all distributions, shared by processes.
+
+    Each process takes every n-th distribution, or, with two processes and
+    fewer than four distributions, one half of every distribution's plans;
+    the union's bound is the smallest of the parts' bounds.
+    """
+    from .generate.planned import PlanSearch
+
+    if workers <= 1:
+        return _plan_shard(state, 0, 1, keep, deadline, False)
+    global _FORK_STATE
+    import multiprocessing
+
+    _FORK_STATE = state
+    pool = multiprocessing.get_context("fork").Pool(workers)
+    try:
+        parts = pool.map(_plan_in_child, [(i, workers, keep, deadline) for i in range(workers)])
+    finally:
+        pool.terminate()
+        pool.join()
+    found: dict = {}
+    for part in parts:
+        for smi, (cost, binary) in part.found.items():
+            known = found.get(smi)
+            if known is None or cost < known[0]:
+                found[smi] = (cost, Chem.Mol(binary))
+    return PlanSearch(found, min(p.lower for p in parts), all(p.exhausted for p in parts),
+                      sum(p.plans for p in parts), sum(p.solves for p in parts))
 
 
 #: First approximate-cost bound of the deepening search, and its growth per pass.

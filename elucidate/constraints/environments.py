@@ -296,6 +296,8 @@ class EnvironmentRule:
         #: Weight of the environment-rarity prior in the approximate cost.
         self.rarity_weight = 1.0
         self._rarity_cache: dict[str, float] = {}
+        self._lines = [(p.hydrogens, p.shift) for p in peaks]
+        self._line_costs: dict = {}
 
     def _rarity(self, key: str) -> float:
         r = self._rarity_cache.get(key)
@@ -341,17 +343,63 @@ class EnvironmentRule:
             self._costs[(h, keys)] = c
         return c
 
+    def line_costs(self, h: int, neighbours: Sequence[tuple[str, int, int]]):
+        """Cost of a carbon under each line (same Student-t excess as
+        :meth:`cost`; ``inf`` where the line's multiplicity does not match),
+        or None when :meth:`allowed` excludes the environment."""
+        keys = environment_keys(h, neighbours)
+        ck = (h, keys)
+        hit = self._line_costs.get(ck)
+        if hit is None:
+            if not self.allowed(h, keys):
+                hit = False
+            else:
+                s = self.table.lookup(keys)
+                out = np.full(len(self._lines), np.inf)
+                for k, (lh, x) in enumerate(self._lines):
+                    if lh is None or lh == h:
+                        if s is None or len(s) < 6:
+                            out[k] = 0.0
+                        else:
+                            spread = max((s[5] - s[4]) / 1.349, _SPREAD_FLOOR)
+                            z = (x - s[2]) / spread
+                            out[k] = 0.5 * (_NU + 1.0) * float(np.log1p(z * z / _NU))
+                hit = out
+            self._line_costs[ck] = hit
+        return None if hit is False else hit
+
+    def atom_rarity(self, label: str, h: int, neighbours) -> float:
+        """Weighted rarity prior of any heavy atom's environment."""
+        return self.rarity_weight * self._rarity(atom_key(label, h, neighbours))
+
     def structure_cost(self, mol: Chem.Mol) -> float:
-        """Approximate cost of a finished structure, as the steered search
-        computes it: the smallest, over its Kekulé forms, of the summed carbon
-        costs plus the weighted rarity of every atom's environment.
+        """Approximate cost of a finished structure: the smallest, over its
+        Kekulé forms, of the weighted rarity of every atom's environment plus
+        the cheapest placement of its carbons under the lines with every
+        line covered (:func:`elucidate.generate.planned.cover_cost`).
+
+        The running sum of the orderly search (each closed carbon under its
+        own cheapest line) never exceeds this, so a bound proven by that
+        search is also a bound on this cost.
         """
+        from ..generate.planned import cover_cost
+
         best = math.inf
         for form in kekule_forms(mol):
-            keys = mol_environment_keys(form)
-            total = sum(self.cost(form.GetAtomWithIdx(i).GetTotalNumHs(), k) for i, k in keys.items())
-            total += self.rarity_weight * sum(self._rarity(k) for k in mol_atom_keys(form))
-            best = min(best, total)
+            rows = []
+            total = 0.0
+            for atom in form.GetAtoms():
+                nbs = []
+                for bond in atom.GetBonds():
+                    other = bond.GetOtherAtom(atom)
+                    nbs.append((_label(other.GetSymbol(), other.GetFormalCharge()), other.GetTotalNumHs(),
+                                int(round(bond.GetBondTypeAsDouble()))))
+                label = _label(atom.GetSymbol(), atom.GetFormalCharge())
+                total += self.atom_rarity(label, atom.GetTotalNumHs(), nbs)
+                if label == "C":
+                    vec = self.line_costs(atom.GetTotalNumHs(), nbs)
+                    rows.append(vec if vec is not None else np.full(len(self._lines), np.inf))
+            best = min(best, total + cover_cost(rows, len(self._lines)))
         return best
 
     def __call__(self, dist):
