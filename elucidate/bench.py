@@ -14,6 +14,7 @@ ranked candidates; ranks compare stereo-free canonical SMILES.
 
 from __future__ import annotations
 
+import math
 import statistics
 from typing import Callable
 
@@ -22,7 +23,7 @@ from rdkit import Chem
 from .cases import BANDS, read_cases
 from .errors import InputError
 from .formula import parse_formula
-from .pipeline import SolveSettings, explain_constraints, solve
+from .pipeline import SolveSettings, approximate_cost, explain_constraints, solve
 from .spectrum.peaks import peaks_from_records
 
 __all__ = ["read_cases", "run_bench", "format_bench_table", "calibration_table", "BANDS"]
@@ -78,9 +79,14 @@ def run_bench(
         else:
             ranks = [c.smiles for c in result.candidates]
             rank = ranks.index(answer) + 1 if answer in ranks else None
+            status, bound = result.completeness
+            cost = approximate_cost(answer_mol, formula, peaks, settings) if answer_mol is not None else None
             row.update(
                 rank=rank,
                 complete=result.complete,
+                status=status,
+                cost_bound=bound,
+                answer_cost=None if cost is None or math.isinf(cost) else round(cost, 3),
                 elapsed_s=round(result.elapsed_s, 3),
                 candidates=result.candidates_generated,
                 top_probability=round(result.candidates[0].probability, 4) if result.candidates else None,
@@ -107,7 +113,7 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
     order = sorted(groups, key=lambda b: int(b.split("-")[0]))
     lines = [f"mode {mode}: {len(rows)} cases",
              f"{'band':>6} {'n':>4} {'top1':>6} {'top3':>6} {'top5':>6} {'top10':>6} {'found':>6} "
-             f"{'compl':>6} {'surv':>6} {'t_med':>7} {'t_p90':>7}"]
+             f"{'compl':>6} {'proof':>6} {'cover':>6} {'surv':>6} {'t_med':>7} {'t_p90':>7}"]
 
     def stats(rs):
         n = len(rs)
@@ -116,15 +122,24 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
         found = 100.0 * sum(1 for r in rs if r["rank"] is not None) / n
         comp = 100.0 * sum(1 for r in rs if r["complete"]) / n
         surv = 100.0 * sum(1 for r in rs if not r.get("answer_failed_constraints")) / n
+        # ended with a proof (complete, or complete up to a cost) and the answer listed
+        proof = 100.0 * sum(1 for r in rs if r.get("status", "complete" if r["complete"] else "")
+                            in ("complete", "complete up to cost") and r["rank"] is not None) / n
+        # where a bound was stated: the answer's approximate cost lies within it
+        bounded = [r for r in rs if r.get("status") == "complete up to cost" and r.get("answer_cost") is not None]
+        cover = (f"{100.0 * sum(1 for r in bounded if r['answer_cost'] <= r['cost_bound']) / len(bounded):>5.1f}%"
+                 if bounded else f"{'-':>6}")
         times = sorted(r["elapsed_s"] for r in rs if r["elapsed_s"] is not None) or [float("nan")]
         med = statistics.median(times)
         p90 = times[min(len(times) - 1, int(round(0.9 * (len(times) - 1))))]
         return (f"{n:>4} {rate(1):>5.1f}% {rate(3):>5.1f}% {rate(5):>5.1f}% {rate(10):>5.1f}% "
-                f"{found:>5.1f}% {comp:>5.1f}% {surv:>5.1f}% {med:>6.1f}s {p90:>6.1f}s")
+                f"{found:>5.1f}% {comp:>5.1f}% {proof:>5.1f}% {cover} {surv:>5.1f}% {med:>6.1f}s {p90:>6.1f}s")
 
     for b in order:
         lines.append(f"{b:>6} " + stats(groups[b]))
     lines.append(f"{'all':>6} " + stats(rows))
+    lines.append("proof = ended complete or complete up to a cost, with the answer listed")
+    lines.append("cover = where a bound was stated, the answer's approximate cost is within it")
     lines.append("surv = the answer passes every default constraint (checked on the answer itself)")
     lines.extend(calibration_table(rows))
     killers: dict[str, int] = {}

@@ -50,6 +50,7 @@ __all__ = [
     "solve",
     "rank_structure",
     "explain_constraints",
+    "approximate_cost",
 ]
 
 CAUTION = (
@@ -230,6 +231,18 @@ def explain_constraints(mol: Chem.Mol, formula: Formula, peaks: PeakList,
     if cons.env_check is not None:
         out.append((f"shift environments (margin {settings.environment_margin:g} ppm)", cons.env_check(mol)))
     return out
+
+
+def approximate_cost(mol: Chem.Mol, formula: Formula, peaks: PeakList,
+                     settings: SolveSettings | None = None) -> float | None:
+    """The fit-steered search's approximate cost of a given structure (the
+    quantity its ``complete up to cost`` bound speaks about); None when the
+    environment table is switched off or absent."""
+    settings = settings or SolveSettings()
+    rule = _constraints(formula, peaks, settings).row_check_factory
+    if rule is None:
+        return None
+    return rule.structure_cost(mol)
 
 
 def solve(
