@@ -331,13 +331,17 @@ def solve(
         state = _PassState(formula, valences, settings.charged_nitrogen, cons)
         executor = _ShardPool(state, workers, pool_size) if workers > 1 else None
         orderly_deadline = start + (gen_deadline - start) * _ORDERLY_SHARE
+        first_pass_deadline = start + (gen_deadline - start) * min(_FIRST_PASS_SHARE, _ORDERLY_SHARE)
         dropped_min = math.inf
         n_found = 0
         runs = []
         try:
             while True:
-                outcome = (executor.run(bound, orderly_deadline - time.monotonic()) if executor
-                           else _run_pass(state, bound, orderly_deadline - time.monotonic(), 0, 1, pool_size, False))
+                # a first pass that has not finished by then is unlikely to
+                # finish at all: hand over to the plan search early
+                pass_end = first_pass_deadline if not runs else orderly_deadline
+                outcome = (executor.run(bound, pass_end - time.monotonic()) if executor
+                           else _run_pass(state, bound, pass_end - time.monotonic(), 0, 1, pool_size, False))
                 runs.append(outcome)
                 dropped_min = min(dropped_min, outcome.dropped_min)
                 n_found = max(n_found, outcome.n_found)
@@ -366,7 +370,10 @@ def solve(
             # The orderly pass did not finish in its share of the time: list
             # structures plan by plan in increasing cost (CP-SAT), which
             # proves its own bound whatever time is left.
-            plan_out = _plan_search(state, pool_size, gen_deadline, workers)
+            # the plan search may run on until the pool it finds still has
+            # time to be scored (about 4 ms per structure, measured)
+            plan_deadline = max(gen_deadline, start + settings.time_limit - 1.0 - _SCORE_S * len(found))
+            plan_out = _plan_search(state, pool_size, plan_deadline, workers)
             plan_runs = plan_out
             merged = {smi: (rule.structure_cost(mol), mol) for smi, (_c, mol) in found.items()}
             for smi, (cost, mol) in plan_out.found.items():
@@ -599,6 +606,11 @@ def _lower_bound(exhausted: bool, proven: float | None, cut: float) -> float | N
 #: Share of the generation time given to the orderly deepening search before
 #: the plan-by-plan search takes over.
 _ORDERLY_SHARE = 0.4
+#: ... of which the first pass (cost bound 8) may take at most this share.
+_FIRST_PASS_SHARE = 0.15
+#: Seconds to fully score one structure of the pool (predictor + assignment),
+#: reserved by the plan search; see docs/performance.md.
+_SCORE_S = 0.004
 
 
 def _plan_costs(cons: "_Constraints", peaks_hydrogens):
@@ -626,7 +638,9 @@ def _plan_shard(state: "_PassState", shard: int, n: int, keep: int, deadline: fl
             return False
         return all(f.keep(mol) for f in cons.filters)
 
-    out = search_plans(dists, costs, keep=keep, deadline=deadline, accept_mol=accept_mol, half=half)
+    # each process reserves scoring time for its share as if it were all
+    out = search_plans(dists, costs, keep=keep, deadline=deadline, accept_mol=accept_mol, half=half,
+                       reserve=_SCORE_S * n)
     if as_binary:
         out.found = {smi: (c, mol.ToBinary()) for smi, (c, mol) in out.found.items()}
     return out
