@@ -605,7 +605,7 @@ def _lower_bound(exhausted: bool, proven: float | None, cut: float) -> float | N
 
 #: Share of the generation time given to the orderly deepening search before
 #: the plan-by-plan search takes over.
-_ORDERLY_SHARE = 0.4
+_ORDERLY_SHARE = 0.6
 #: ... of which the first pass (cost bound 8) may take at most this share.
 _FIRST_PASS_SHARE = 0.15
 #: Seconds to fully score one structure of the pool (predictor + assignment),
