@@ -138,3 +138,10 @@ def test_two_halves_share_a_distribution_exactly():
         assert sorted(keys[0] + keys[1]) == sorted(p.sort_key() for p in whole)
         checked += 1
     assert checked
+
+
+def test_distributions_start_only_when_their_floor_comes_up():
+    _f, _s, cons, _r, costs, dists = _setup("C5H10O", PENTANONE_PLAIN)
+    assert len(dists) > 3
+    out = search_plans(dists, costs, keep=1, accept_mol=lambda m: all(fl.keep(m) for fl in cons.filters))
+    assert out.found and out.solves < len(dists)

@@ -288,18 +288,36 @@ class PlanStream:
         opts = _costed_options(types, counts, costs, math.inf, max_order)
         self.costs = costs
         self.exhausted = any(not row for row in opts)
-        self.lower = math.inf if self.exhausted else 0.0
         self.solves = 0
         self.opts = opts
-        if self.exhausted:
-            return
+        self.model = None
+        self._counts = counts
+        self._n = len(dist)
+        # floor: every atom at least its type's cheapest environment, and the
+        # (distinct) atom under each line at least its cheapest way to be there
+        self.lower = math.inf
+        if not self.exhausted:
+            floor = sum(c * row[0][3] for c, row in zip(counts, opts))
+            for li in range(costs.n_lines):
+                extra = math.inf
+                for row in opts:
+                    for _e, vec, rarity, _relaxed in row:
+                        if vec is not None:
+                            extra = min(extra, rarity + float(vec[li]) - row[0][3])
+                floor += max(extra, 0.0)
+            self.lower = floor
+            self.exhausted = math.isinf(floor)  # some line has no possible carrier
+
+    def _build(self) -> None:
+        """The CP-SAT model, built on first use (many streams never need it)."""
+        types, counts, opts, costs = self.types, self._counts, self.opts, self.costs
+        n = self._n
         model = cp_model.CpModel()
         x = []
         for ti, row in enumerate(opts):
             xs = [model.NewIntVar(0, counts[ti], f"x{ti}_{k}") for k in range(len(row))]
             model.Add(sum(xs) == counts[ti])
             x.append(xs)
-        n = len(dist)
         for a in range(len(types)):
             for b in range(a, len(types)):
                 for o in (1, 2, 3):
@@ -333,6 +351,7 @@ class PlanStream:
             if not lits:
                 self.exhausted = True
                 self.lower = math.inf
+                self.model = model
                 return
             model.AddExactlyOne(lits)
         for (ti, k), ys in carriers.items():
@@ -387,6 +406,10 @@ class PlanStream:
         holds the proven lower bound on every plan not yet returned)."""
         if self.exhausted:
             return None
+        if self.model is None:
+            self._build()
+            if self.exhausted:
+                return None
         solver = cp_model.CpSolver()
         solver.parameters.num_workers = 1
         solver.parameters.random_seed = 0
@@ -524,15 +547,11 @@ def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep:
     max_order = max_order or _default_max_order
     streams = [PlanStream(d, costs, max_order=max_order) for d in dists]
     queued = [deque() for _ in streams]
-    heap: list = []
-    for i, st in enumerate(streams):
-        if deadline is not None and time.monotonic() > deadline:
-            break
-        if half is not None:
-            queued[i].extend(st.split(half, deadline=deadline))
-        plan = queued[i].popleft() if queued[i] else st.next(deadline)
-        if plan is not None:
-            heapq.heappush(heap, (plan.cost, i, plan))
+    # a stream enters the merge with its floor (no plan yet): it is only
+    # started when that floor comes up, so cheap distributions go first
+    heap: list = [(st.lower, i, None) for i, st in enumerate(streams) if not st.exhausted]
+    heapq.heapify(heap)
+    started = [False] * len(streams)
     found: dict = {}
     plans = 0
 
@@ -544,6 +563,20 @@ def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep:
             if deadline is not None and time.monotonic() > until():
                 break
             cost, i, plan = heap[0]
+            if plan is None:
+                heapq.heappop(heap)
+                st = streams[i]
+                if not started[i]:
+                    started[i] = True
+                    if half is not None:
+                        queued[i].extend(st.split(half, deadline=until()))
+                nxt = queued[i].popleft() if queued[i] else st.next(until())
+                if nxt is not None:
+                    heapq.heappush(heap, (nxt.cost, i, nxt))
+                elif not st.exhausted:  # out of time before its first plan
+                    heapq.heappush(heap, (st.lower, i, None))
+                    break
+                continue
             for types, matrix in assemble_plan(plan, max_order=max_order, deadline=until()):
                 mol = build_mol(types, matrix)
                 if mol is None:
@@ -561,5 +594,6 @@ def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep:
         pass  # the plan at the top of the heap was not finished: it stays pending
     pending = [c for c, _i, _p in heap] + [p.cost for q in queued for p in q]
     lower = min([st.lower for st in streams if not st.exhausted] + pending, default=math.inf)
+    # (a stream's lower is its floor until it starts, then the solver's bound)
     exhausted = not pending and all(st.exhausted for st in streams)
     return PlanSearch(found, lower, exhausted, plans, sum(st.solves for st in streams))
