@@ -356,16 +356,13 @@ def solve(
                     exhausted = True
                     break
                 proven_bound = bound
-                # full once the pool holds structures proven cheapest: those
-                # whose full cost is within the bound just proven
-                if sum(1 for cost, _m in found.values() if cost <= bound) >= pool_size:
+                if outcome.n_found >= pool_size:
                     break
                 bound *= _BOUND_GROWTH
         finally:
             if executor is not None:
                 executor.close()
-        if not exhausted and not (proven_bound is not None
-                                  and sum(1 for c, _m in found.values() if c <= proven_bound) >= pool_size) \
+        if not exhausted and not (proven_bound is not None and n_found >= pool_size) \
                 and time.monotonic() < gen_deadline:
             # The orderly pass did not finish in its share of the time: list
             # structures plan by plan in increasing cost (CP-SAT), which

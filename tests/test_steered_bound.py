@@ -15,7 +15,7 @@ from elucidate.pipeline import SolveSettings, _constraints, prepare_peaks, solve
 PEAKS = "209.0 C, 43.7 CH2, 29.8 CH3, 17.4 CH2, 13.7 CH3"
 
 
-@pytest.mark.parametrize("formula,peaks,pool", [("C5H10O", PEAKS, 1),
+@pytest.mark.parametrize("formula,peaks,pool", [("C5H10O", PEAKS, 2),
                                                 ("C5H10O", "209.0, 43.7, 29.8, 17.4, 13.7", 6)])
 def test_every_structure_below_the_bound_is_listed(formula, peaks, pool):
     settings = SolveSettings(pool=pool, top=100, keep=100, time_limit=60)
