@@ -610,11 +610,11 @@ _FIRST_PASS_SHARE = 0.15
 _SCORE_S = 0.004
 
 
-def _plan_costs(cons: "_Constraints", peaks_hydrogens):
+def _plan_costs(cons: "_Constraints"):
     from .generate.planned import PlanCosts
 
     rule = cons.row_check_factory
-    return PlanCosts(rule.line_costs, rule.atom_rarity, peaks_hydrogens)
+    return PlanCosts(rule.line_costs, rule.atom_rarity, rule.line_hydrogens)
 
 
 def _plan_shard(state: "_PassState", shard: int, n: int, keep: int, deadline: float, as_binary: bool):
@@ -628,7 +628,7 @@ def _plan_shard(state: "_PassState", shard: int, n: int, keep: int, deadline: fl
         half = shard  # few distributions: both processes share each one
     elif n > 1:
         dists = [d for k, d in enumerate(dists) if k % n == shard]
-    costs = _plan_costs(cons, [ln[0] for ln in cons.row_check_factory._lines])
+    costs = _plan_costs(cons)
 
     def accept_mol(mol):
         if state.charged_nitrogen and not _charges_paired(mol):

@@ -99,17 +99,20 @@ def atom_key(label: str, h: int, neighbours: Sequence[tuple[str, int, int]]) -> 
     return f"{label}{h}|" + ",".join(f"{lab}{nh}-{o}" for lab, nh, o in sorted(neighbours))
 
 
+def _neighbours(atom) -> list[tuple[str, int, int]]:
+    """``(label, H count, bond order)`` of an RDKit atom's heavy neighbours."""
+    out = []
+    for bond in atom.GetBonds():
+        other = bond.GetOtherAtom(atom)
+        out.append((_label(other.GetSymbol(), other.GetFormalCharge()), other.GetTotalNumHs(),
+                    int(round(bond.GetBondTypeAsDouble()))))
+    return out
+
+
 def mol_atom_keys(mol: Chem.Mol) -> list[str]:
     """:func:`atom_key` of every heavy atom, by atom index."""
-    out = []
-    for atom in mol.GetAtoms():
-        nbs = []
-        for bond in atom.GetBonds():
-            other = bond.GetOtherAtom(atom)
-            nbs.append((_label(other.GetSymbol(), other.GetFormalCharge()), other.GetTotalNumHs(),
-                        int(round(bond.GetBondTypeAsDouble()))))
-        out.append(atom_key(_label(atom.GetSymbol(), atom.GetFormalCharge()), atom.GetTotalNumHs(), nbs))
-    return out
+    return [atom_key(_label(a.GetSymbol(), a.GetFormalCharge()), a.GetTotalNumHs(), _neighbours(a))
+            for a in mol.GetAtoms()]
 
 
 def rarity(count: float) -> float:
@@ -129,12 +132,7 @@ def mol_environment_keys(mol: Chem.Mol) -> dict[int, tuple[str, str]]:
     for atom in mol.GetAtoms():
         if atom.GetAtomicNum() != 6:
             continue
-        nbs = []
-        for bond in atom.GetBonds():
-            other = bond.GetOtherAtom(atom)
-            order = int(round(bond.GetBondTypeAsDouble()))
-            nbs.append((_label(other.GetSymbol(), other.GetFormalCharge()), other.GetTotalNumHs(), order))
-        out[atom.GetIdx()] = environment_keys(atom.GetTotalNumHs(), nbs)
+        out[atom.GetIdx()] = environment_keys(atom.GetTotalNumHs(), _neighbours(atom))
     return out
 
 
@@ -259,6 +257,18 @@ def load_environment_table(path: Path | str | None = None) -> EnvironmentTable |
     return _CACHE[key]
 
 
+def _excess(stats, shift: float) -> float:
+    """Student-t negative log-likelihood excess of ``shift`` under an
+    environment's statistics (0 at the median; 0 when the environment has
+    too few examples): ``(nu + 1) / 2 * log(1 + z**2 / nu)`` with ``z`` the
+    distance from the median over the interquartile spread (floored)."""
+    if stats is None or len(stats) < 6:
+        return 0.0
+    spread = max((stats[5] - stats[4]) / 1.349, _SPREAD_FLOOR)
+    z = (shift - stats[2]) / spread
+    return 0.5 * (_NU + 1.0) * float(np.log1p(z * z / _NU))
+
+
 class EnvironmentRule:
     """Generator hook rejecting carbons that no line of their multiplicity explains.
 
@@ -333,13 +343,7 @@ class EnvironmentRule:
         if c is None:
             s = self.table.lookup(keys)
             shifts = self._by_h.get(h, []) + self._unknown
-            if s is None or len(s) < 6 or not shifts:
-                c = 0.0
-            else:
-                med = s[2]
-                spread = max((s[5] - s[4]) / 1.349, _SPREAD_FLOOR)
-                z = min(abs(x - med) for x in shifts) / spread
-                c = 0.5 * (_NU + 1.0) * float(np.log1p(z * z / _NU))
+            c = min((_excess(s, x) for x in shifts), default=0.0)
             self._costs[(h, keys)] = c
         return c
 
@@ -355,18 +359,14 @@ class EnvironmentRule:
                 hit = False
             else:
                 s = self.table.lookup(keys)
-                out = np.full(len(self._lines), np.inf)
-                for k, (lh, x) in enumerate(self._lines):
-                    if lh is None or lh == h:
-                        if s is None or len(s) < 6:
-                            out[k] = 0.0
-                        else:
-                            spread = max((s[5] - s[4]) / 1.349, _SPREAD_FLOOR)
-                            z = (x - s[2]) / spread
-                            out[k] = 0.5 * (_NU + 1.0) * float(np.log1p(z * z / _NU))
-                hit = out
+                hit = np.array([_excess(s, x) if lh is None or lh == h else np.inf for lh, x in self._lines])
             self._line_costs[ck] = hit
         return None if hit is False else hit
+
+    @property
+    def line_hydrogens(self) -> list[int | None]:
+        """Hydrogen count (multiplicity) of each line, None where unknown."""
+        return [h for h, _x in self._lines]
 
     def atom_rarity(self, label: str, h: int, neighbours) -> float:
         """Weighted rarity prior of any heavy atom's environment."""
@@ -389,11 +389,7 @@ class EnvironmentRule:
             rows = []
             total = 0.0
             for atom in form.GetAtoms():
-                nbs = []
-                for bond in atom.GetBonds():
-                    other = bond.GetOtherAtom(atom)
-                    nbs.append((_label(other.GetSymbol(), other.GetFormalCharge()), other.GetTotalNumHs(),
-                                int(round(bond.GetBondTypeAsDouble()))))
+                nbs = _neighbours(atom)
                 label = _label(atom.GetSymbol(), atom.GetFormalCharge())
                 total += self.atom_rarity(label, atom.GetTotalNumHs(), nbs)
                 if label == "C":
