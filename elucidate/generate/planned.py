@@ -211,8 +211,9 @@ def environment_options(types: Sequence[AtomType], counts: Sequence[int],
     return out
 
 
-def _costed_options(types, counts, costs, bound, max_order):
-    """Per type: environments that survive the hard rules and the bound, with costs."""
+def _costed_options(types, counts, costs, max_order):
+    """Per type: the environments the hard rules allow, with their costs,
+    cheapest first: ``(environment, line-cost vector or None, rarity, relaxed cost)``."""
     envs = environment_options(types, counts, max_order)
     opts = []
     for ti, t in enumerate(types):
@@ -222,10 +223,7 @@ def _costed_options(types, counts, costs, bound, max_order):
             got = costs.environment(t, nbs)
             if got is False:
                 continue
-            vec, rarity, relaxed = got
-            if relaxed > bound + 1e-9:
-                continue
-            row.append((env, vec, rarity, relaxed))
+            row.append((env, *got))
         row.sort(key=lambda r: (r[3], r[0]))
         opts.append(row)
     return opts
@@ -285,7 +283,7 @@ class PlanStream:
         counts_by_type = Counter(dist)
         self.types = types = tuple(sorted(counts_by_type))
         counts = [counts_by_type[t] for t in types]
-        opts = _costed_options(types, counts, costs, math.inf, max_order)
+        opts = _costed_options(types, counts, costs, max_order)
         self.costs = costs
         self.exhausted = any(not row for row in opts)
         self.solves = 0
