@@ -305,6 +305,7 @@ def solve(
     found: dict[str, tuple[float, Chem.Mol | None]] = {}
     scored: list[_Scored] = []
     proven_bound = None  # every structure with approximate cost <= this was found
+    plan_runs = None  # outcome of the plan search, when it ran
     exhausted = False  # the whole constrained space was searched
     if not steer:
         run = enumeration(gen_deadline - time.monotonic())
@@ -345,10 +346,7 @@ def solve(
                 runs.append(outcome)
                 dropped_min = min(dropped_min, outcome.dropped_min)
                 n_found = max(n_found, outcome.n_found)
-                for smi, (cost, mol) in outcome.found.items():
-                    known = found.get(smi)
-                    if known is None or cost < known[0]:  # another Kekulé form may cost less
-                        found[smi] = (cost, mol)
+                found.update(outcome.found)  # structure costs: the same in every pass
                 report()
                 if not outcome.complete:
                     break
@@ -359,37 +357,33 @@ def solve(
                 if outcome.n_found >= pool_size:
                     break
                 bound *= _BOUND_GROWTH
+            if not exhausted and not (proven_bound is not None and n_found >= pool_size) \
+                    and time.monotonic() < gen_deadline:
+                # The orderly passes did not finish in their share of the time:
+                # list structures plan by plan in increasing cost (CP-SAT),
+                # which proves its own bound whatever time is left, running on
+                # until what remains is the time to score the pool it finds.
+                plan_deadline = max(gen_deadline, start + settings.time_limit - 1.0 - _SCORE_S * len(found))
+                plan_runs = (executor.run_plans(pool_size, plan_deadline) if executor
+                             else _plan_shard(state, 0, 1, pool_size, plan_deadline, False))
         finally:
             if executor is not None:
                 executor.close()
-        if not exhausted and not (proven_bound is not None and n_found >= pool_size) \
-                and time.monotonic() < gen_deadline:
-            # The orderly pass did not finish in its share of the time: list
-            # structures plan by plan in increasing cost (CP-SAT), which
-            # proves its own bound whatever time is left.
-            # the plan search may run on until the pool it finds still has
-            # time to be scored (about 4 ms per structure, measured)
-            plan_deadline = max(gen_deadline, start + settings.time_limit - 1.0 - _SCORE_S * len(found))
-            plan_out = _plan_search(state, pool_size, plan_deadline, workers)
-            plan_runs = plan_out
-            merged = {smi: (rule.structure_cost(mol), mol) for smi, (_c, mol) in found.items()}
-            for smi, (cost, mol) in plan_out.found.items():
-                known = merged.get(smi)
-                if known is None or cost < known[0]:
-                    merged[smi] = (cost, mol)
-            found = merged
+        if plan_runs is not None:
+            for smi, (cost, mol) in plan_runs.found.items():
+                known = found.get(smi)
+                if known is None or cost < known[0]:  # a plan costs one Kekulé form
+                    found[smi] = (cost, mol)
             n_found = max(n_found, len(found))
-            if plan_out.exhausted:
+            if plan_runs.exhausted:
                 exhausted, proven_bound, dropped_min = True, None, math.inf
             else:
                 # every structure outside the plan search's list costs at least its bound
                 proven_bound = max(proven_bound if proven_bound is not None else -math.inf,
-                                   plan_out.lower, 0.0)
+                                   plan_runs.lower, 0.0)
                 if dropped_min < math.inf:
-                    proven_bound = min(proven_bound, max(dropped_min, plan_out.lower))
+                    proven_bound = min(proven_bound, max(dropped_min, plan_runs.lower))
                     dropped_min = math.inf
-        else:
-            plan_runs = None
         pool = sorted(((cost, smi, mol) for smi, (cost, mol) in found.items()), key=lambda e: (e[0], e[1]))
         if dropped_min < math.inf:
             # structures let go during the passes cost at least this
@@ -421,8 +415,6 @@ def solve(
     else:
         status, cost_bound = "stopped at the time limit", None
     counter = n_found if steer else len(found)
-    if not steer:
-        plan_runs = None
     warnings = list(peaks.warnings)
     if status == "stopped at the time limit":
         warnings.append(
@@ -519,9 +511,7 @@ def _run_pass(state: _PassState, bound: float, limit: float, shard: int, n: int,
     found: dict[str, tuple[float, Chem.Mol]] = {}
     seen: set[str] = set()
     dropped_min = math.inf
-    for structure in run:
-        if structure.smiles in seen:
-            continue
+    for structure in run:  # each constitution once
         seen.add(structure.smiles)
         # the full approximate cost (lines covered, cheapest Kekulé form) is
         # never below the running sum the branch and bound used
@@ -562,10 +552,7 @@ class _ShardPool:
 
     def run(self, bound: float, limit: float) -> _PassOutcome:
         parts = self.pool.map(_pass_in_child, [(bound, limit, i, self.n, self.keep) for i in range(self.n)])
-        found: dict = {}
-        for part in parts:  # shards hold disjoint atom-type distributions, hence disjoint structures
-            for smi, (cost, binary) in part.found.items():
-                found[smi] = (cost, Chem.Mol(binary))
+        found = _merge_found(parts)
         log = [(name, sum(p.filter_log[i][1] for p in parts), sum(p.filter_log[i][2] for p in parts))
                for i, (name, _, _) in enumerate(parts[0].filter_log)]
         return _PassOutcome(found, all(p.complete for p in parts), sum(p.bound_pruned for p in parts),
@@ -573,9 +560,30 @@ class _ShardPool:
                             sum(p.checked for p in parts), sum(p.rejected for p in parts),
                             min(p.dropped_min for p in parts), sum(p.n_found for p in parts))
 
+    def run_plans(self, keep: int, deadline: float):
+        """The plan search shared by the workers (:func:`_plan_shard`); the
+        union's bound is the smallest of the parts' bounds."""
+        from .generate.planned import PlanSearch
+
+        parts = self.pool.map(_plan_in_child, [(i, self.n, keep, deadline) for i in range(self.n)])
+        return PlanSearch(_merge_found(parts), min(p.lower for p in parts), all(p.exhausted for p in parts),
+                          sum(p.plans for p in parts), sum(p.solves for p in parts))
+
     def close(self):
         self.pool.terminate()
         self.pool.join()
+
+
+def _merge_found(parts) -> dict:
+    """Union of workers' ``found`` maps (molecules as RDKit binaries), keeping
+    the lower cost when two workers list one structure."""
+    found: dict = {}
+    for part in parts:
+        for smi, (cost, binary) in part.found.items():
+            known = found.get(smi)
+            if known is None or cost < known[0]:
+                found[smi] = (cost, Chem.Mol(binary))
+    return found
 
 
 def _worker_count(settings: SolveSettings) -> int:
@@ -610,15 +618,11 @@ _FIRST_PASS_SHARE = 0.15
 _SCORE_S = 0.004
 
 
-def _plan_costs(cons: "_Constraints"):
-    from .generate.planned import PlanCosts
-
-    rule = cons.row_check_factory
-    return PlanCosts(rule.line_costs, rule.atom_rarity, rule.line_hydrogens)
-
-
 def _plan_shard(state: "_PassState", shard: int, n: int, keep: int, deadline: float, as_binary: bool):
-    from .generate.planned import search_plans
+    """The plan search on shard ``shard`` of ``n``: every n-th distribution,
+    or, with two processes and fewer than four distributions, one half of
+    every distribution's plans."""
+    from .generate.planned import PlanCosts, search_plans
 
     cons = state.cons
     dists = list(type_distributions(state.formula, state.valences, charged_nitrogen=state.charged_nitrogen,
@@ -628,7 +632,8 @@ def _plan_shard(state: "_PassState", shard: int, n: int, keep: int, deadline: fl
         half = shard  # few distributions: both processes share each one
     elif n > 1:
         dists = [d for k, d in enumerate(dists) if k % n == shard]
-    costs = _plan_costs(cons)
+    rule = cons.row_check_factory
+    costs = PlanCosts(rule.line_costs, rule.atom_rarity, rule.line_hydrogens)
 
     def accept_mol(mol):
         if state.charged_nitrogen and not _charges_paired(mol):
@@ -646,37 +651,6 @@ def _plan_shard(state: "_PassState", shard: int, n: int, keep: int, deadline: fl
 def _plan_in_child(args):
     shard, n, keep, deadline = args
     return _plan_shard(_FORK_STATE, shard, n, keep, deadline, True)
-
-
-def _plan_search(state: "_PassState", keep: int, deadline: float, workers: int):
-    """Plan-by-plan search over all distributions, shared by processes.
-
-    Each process takes every n-th distribution, or, with two processes and
-    fewer than four distributions, one half of every distribution's plans;
-    the union's bound is the smallest of the parts' bounds.
-    """
-    from .generate.planned import PlanSearch
-
-    if workers <= 1:
-        return _plan_shard(state, 0, 1, keep, deadline, False)
-    global _FORK_STATE
-    import multiprocessing
-
-    _FORK_STATE = state
-    pool = multiprocessing.get_context("fork").Pool(workers)
-    try:
-        parts = pool.map(_plan_in_child, [(i, workers, keep, deadline) for i in range(workers)])
-    finally:
-        pool.terminate()
-        pool.join()
-    found: dict = {}
-    for part in parts:
-        for smi, (cost, binary) in part.found.items():
-            known = found.get(smi)
-            if known is None or cost < known[0]:
-                found[smi] = (cost, Chem.Mol(binary))
-    return PlanSearch(found, min(p.lower for p in parts), all(p.exhausted for p in parts),
-                      sum(p.plans for p in parts), sum(p.solves for p in parts))
 
 
 #: First approximate-cost bound of the deepening search, and its growth per pass.

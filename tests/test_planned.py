@@ -17,8 +17,9 @@ import elucidate.pipeline as pipeline
 from elucidate.formula import parse_formula
 from elucidate.generate import enumerate_isomers
 from elucidate.generate.atomtypes import AtomType, type_distributions
-from elucidate.generate.planned import PlanCosts, PlanStream, assemble_plan, cover_cost, search_plans
+from elucidate.generate.planned import PlanCosts, PlanStream, assemble_plan, search_plans
 from elucidate.pipeline import SolveSettings, _constraints, prepare_peaks, solve
+from elucidate.rank.cover import cover_cost
 
 PENTANONE = "209.0 C, 43.7 CH2, 29.8 CH3, 17.4 CH2, 13.7 CH3"
 PENTANONE_PLAIN = "209.0, 43.7, 29.8, 17.4, 13.7"

@@ -42,6 +42,8 @@ from typing import Iterable, Sequence
 import numpy as np
 from rdkit import Chem, rdBase
 
+from ..rank.cover import cover_cost
+
 __all__ = [
     "EnvironmentTable",
     "environment_keys",
@@ -376,14 +378,12 @@ class EnvironmentRule:
         """Approximate cost of a finished structure: the smallest, over its
         Kekulé forms, of the weighted rarity of every atom's environment plus
         the cheapest placement of its carbons under the lines with every
-        line covered (:func:`elucidate.generate.planned.cover_cost`).
+        line covered (:func:`elucidate.rank.cover.cover_cost`).
 
         The running sum of the orderly search (each closed carbon under its
         own cheapest line) never exceeds this, so a bound proven by that
         search is also a bound on this cost.
         """
-        from ..generate.planned import cover_cost
-
         best = math.inf
         for form in kekule_forms(mol):
             rows = []
@@ -399,7 +399,7 @@ class EnvironmentRule:
         return best
 
     def __call__(self, dist):
-        labels = [_label(t.element, t.charge) for t in dist]
+        labels = [t.label for t in dist]
         hs = [t.hydrogens for t in dist]
         carbons = [t.element == "C" for t in dist]
         n = len(dist)

@@ -21,7 +21,7 @@ from rdkit import Chem
 from ..errors import InputError
 from ..formula import VALENCES, Formula
 from .assembly import SearchInterrupted, bond_matrices
-from .atomtypes import STANDARD_VALENCES, WIDE_VALENCES, AtomType, type_distributions
+from .atomtypes import STANDARD_VALENCES, WIDE_VALENCES, AtomType, max_bond_order, type_distributions
 from .molecule import build_mol, canonical_smiles
 
 __all__ = [
@@ -265,18 +265,5 @@ def _charges_paired(mol) -> bool:
 
 
 def _max_order(dist: Sequence[AtomType]) -> list[list[int]]:
-    """Largest bond order between each pair of atoms.
-
-    Charge-separated O- binds only to an N+ (single bond); two N+ never bind.
-    """
-    n = len(dist)
-    out = [[3] * n for _ in range(n)]
-    for a in range(n):
-        for b in range(n):
-            ta, tb = dist[a], dist[b]
-            if ta.charge == -1 or tb.charge == -1:
-                pair = {ta.charge, tb.charge}
-                out[a][b] = 1 if pair == {-1, 1} else 0
-            elif ta.charge == 1 and tb.charge == 1:
-                out[a][b] = 0
-    return out
+    """Largest bond order between each pair of atoms (:func:`max_bond_order`)."""
+    return [[max_bond_order(ta, tb) for tb in dist] for ta in dist]

@@ -29,7 +29,7 @@ from typing import Callable, Iterator, Mapping
 
 from ..formula import VALENCES, Formula
 
-__all__ = ["AtomType", "type_distributions", "STANDARD_VALENCES", "WIDE_VALENCES"]
+__all__ = ["AtomType", "type_distributions", "max_bond_order", "STANDARD_VALENCES", "WIDE_VALENCES"]
 
 #: Lowest neutral valence of each element: what ``isomers`` uses by default.
 STANDARD_VALENCES: dict[str, tuple[int, ...]] = {el: (v[0],) for el, v in VALENCES.items()}
@@ -56,8 +56,27 @@ class AtomType:
         return self.valence - self.hydrogens
 
     @property
+    def label(self) -> str:
+        """Element with its charge sign (``N+``, ``O-``), as environment keys write it."""
+        return self.element + ("+" if self.charge > 0 else "-" if self.charge < 0 else "")
+
+    @property
     def hypervalent(self) -> bool:
         return self.valence > VALENCES[self.element][0] and self.charge == 0
+
+
+def max_bond_order(a: AtomType, b: AtomType) -> int:
+    """Largest bond order allowed between two atom types: charge-separated
+    O- binds only to N+ (single bond); two N+ never bind; otherwise 3.
+
+    >>> max_bond_order(AtomType("N", 4, 0, 1), AtomType("O", 1, 0, -1))
+    1
+    """
+    if a.charge == -1 or b.charge == -1:
+        return 1 if {a.charge, b.charge} == {-1, 1} else 0
+    if a.charge == 1 and b.charge == 1:
+        return 0
+    return 3
 
 
 def _element_options(

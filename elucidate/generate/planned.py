@@ -47,19 +47,15 @@ from typing import Callable, Iterator, Sequence
 import numpy as np
 from ortools.sat.python import cp_model
 
-from ..rank.hungarian import solve_assignment
+from ..rank.cover import cover_cost
 from .assembly import SearchInterrupted, bond_matrices
-from .atomtypes import AtomType
+from .atomtypes import AtomType, max_bond_order
 
-__all__ = ["Plan", "PlanCosts", "PlanStream", "PlanSearch", "cover_cost", "environment_options",
-           "assemble_plan", "search_plans"]
+__all__ = ["Plan", "PlanCosts", "PlanStream", "PlanSearch", "environment_options", "assemble_plan",
+           "search_plans"]
 
 #: Cost resolution of the CP-SAT model (costs are integers in 1/1000).
 _SCALE = 1000
-
-
-def _label(t: AtomType) -> str:
-    return t.element + ("+" if t.charge > 0 else "-" if t.charge < 0 else "")
 
 
 @dataclass(frozen=True)
@@ -106,16 +102,17 @@ class PlanCosts:
         self._cover_cache: dict = {}
 
     def environment(self, t: AtomType, nbs: Sequence[tuple[str, int, int]]):
-        """(line-cost vector or None, rarity, relaxed cost) of one atom, or None if excluded."""
-        rarity = self._rarity(_label(t), t.hydrogens, nbs)
+        """(line-cost vector or None for non-carbons, rarity, relaxed cost) of
+        one atom, or None when the environment is excluded."""
+        rarity = self._rarity(t.label, t.hydrogens, nbs)
         if t.element != "C" or t.charge:
             return None, rarity, rarity
         lc = self._carbon(t.hydrogens, nbs)
         if lc is None:
-            return False
+            return None
         best = float(np.min(lc)) if len(lc) else 0.0
         if not math.isfinite(best):
-            return False
+            return None
         return lc, rarity, rarity + best
 
     def cover_cost(self, carbons: Sequence[tuple[tuple, int]], vectors: dict) -> float:
@@ -133,39 +130,6 @@ class PlanCosts:
             hit = cover_cost(rows, self.n_lines)
             self._cover_cache[key] = hit
         return hit
-
-
-def cover_cost(rows: Sequence[np.ndarray], n_lines: int) -> float:
-    """Cheapest way to put each carbon (a row of line costs) under one line
-    so that every line carries at least one carbon.
-
-    Each carbon first takes its cheapest line; covering every line then
-    costs the minimum extra of a matching of lines to distinct carbons
-    (Hungarian method, :func:`elucidate.rank.hungarian.solve_assignment`).
-    ``inf`` when some line cannot be covered.
-
-    >>> import numpy as np
-    >>> cover_cost([np.array([0.0, 3.0]), np.array([0.0, 1.0])], 2)
-    1.0
-    """
-    if not rows:
-        return 0.0 if n_lines == 0 else math.inf
-    mat = np.vstack(rows)  # carbons x lines
-    base = mat.min(axis=1)
-    if not np.all(np.isfinite(base)):
-        return math.inf
-    if n_lines == 0:
-        return float(base.sum())
-    big = 1e6
-    extra = np.where(np.isfinite(mat), mat - base[:, None], big)
-    n_c, n_l = extra.shape
-    if n_c < n_l:
-        return math.inf
-    square = np.zeros((n_c, n_c))
-    square[:, :n_l] = extra
-    cols = solve_assignment(square)
-    add = float(square[np.arange(n_c), cols].sum())
-    return math.inf if add >= big else float(base.sum()) + add
 
 
 def environment_options(types: Sequence[AtomType], counts: Sequence[int],
@@ -219,24 +183,14 @@ def _costed_options(types, counts, costs, max_order):
     for ti, t in enumerate(types):
         row = []
         for env in envs[ti]:
-            nbs = [(_label(types[u]), types[u].hydrogens, o) for u, o in env]
+            nbs = [(types[u].label, types[u].hydrogens, o) for u, o in env]
             got = costs.environment(t, nbs)
-            if got is False:
+            if got is None:
                 continue
             row.append((env, *got))
         row.sort(key=lambda r: (r[3], r[0]))
         opts.append(row)
     return opts
-
-
-def _default_max_order(a: AtomType, b: AtomType) -> int:
-    """Largest bond order between two types: charge-separated O- binds only
-    to N+ (single bond); two N+ never bind (as in stage 2)."""
-    if a.charge == -1 or b.charge == -1:
-        return 1 if {a.charge, b.charge} == {-1, 1} else 0
-    if a.charge == 1 and b.charge == 1:
-        return 0
-    return 3
 
 
 def _finish(types, opts, chosen, costs):
@@ -279,7 +233,7 @@ class PlanStream:
 
     def __init__(self, dist: Sequence[AtomType], costs: PlanCosts, *,
                  max_order: Callable[[AtomType, AtomType], int] | None = None):
-        max_order = max_order or _default_max_order
+        max_order = max_order or max_bond_order
         counts_by_type = Counter(dist)
         self.types = types = tuple(sorted(counts_by_type))
         counts = [counts_by_type[t] for t in types]
@@ -542,7 +496,7 @@ def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep:
 
     from .molecule import build_mol, canonical_smiles
 
-    max_order = max_order or _default_max_order
+    max_order = max_order or max_bond_order
     streams = [PlanStream(d, costs, max_order=max_order) for d in dists]
     queued = [deque() for _ in streams]
     # a stream enters the merge with its floor (no plan yet): it is only
