@@ -18,15 +18,17 @@ import math
 import statistics
 from typing import Callable
 
+import numpy as np
 from rdkit import Chem
 
 from .cases import BANDS, read_cases
 from .errors import InputError
 from .formula import parse_formula
+from .rank.calibration import calibrated_scores, listed_chance, listed_probabilities, load_calibration
 from .pipeline import SolveSettings, approximate_cost, explain_constraints, solve
 from .spectrum.peaks import peaks_from_records
 
-__all__ = ["read_cases", "run_bench", "format_bench_table", "calibration_table", "BANDS"]
+__all__ = ["read_cases", "run_bench", "recalibrate_row", "format_bench_table", "calibration_table", "BANDS"]
 
 def _canon(smiles: str) -> str | None:
     mol = Chem.MolFromSmiles(smiles)
@@ -90,12 +92,64 @@ def run_bench(
                 elapsed_s=round(result.elapsed_s, 3),
                 candidates=result.candidates_generated,
                 top_probability=round(result.candidates[0].probability, 4) if result.candidates else None,
+                unlisted_probability=round(result.unlisted_probability, 4),
+                # per listed candidate: (assignment cost, prior), for refitting
+                # the probability calibration (rank/calibration.py)
+                fit_terms=_fit_terms(result),
+                top_cost=_top_cost(result, formula, peaks, settings),
             )
         rows.append(row)
         if progress:
             progress(f"[{i}/{len(cases)}] {row['id']} {row['formula']}: rank {row['rank']} "
                      f"({row['elapsed_s']} s)")
     return rows
+
+
+def recalibrate_row(row: dict, calibration) -> dict:
+    """A bench row as another calibration would have ranked it.
+
+    The search does not depend on the calibration, only the final order and
+    the probabilities do; they are recomputed from the row's ``fit_terms``
+    (assignment cost and prior of every listed candidate), ``status``,
+    ``cost_bound`` and ``top_cost``.  The answer's new rank counts the
+    candidates with a strictly lower calibrated score (ties go to the answer).
+    """
+    terms = row.get("fit_terms")
+    if not terms:
+        return dict(row)
+    f = [t[0] for t in terms]
+    r = [t[1] for t in terms]
+    scores = calibrated_scores(f, r, calibration)
+    probs = listed_probabilities(f, r, calibration)
+    best = int(np.argmin(scores))
+    out = dict(row)
+    if row.get("rank") is not None:
+        k = row["rank"] - 1
+        out["rank"] = 1 + int(np.sum(scores < scores[k]))
+    margin = None
+    if row.get("cost_bound") is not None and row.get("top_cost") is not None:
+        # top_cost belongs to the row's own best; recomputing it for a new best needs the solve
+        margin = row["cost_bound"] - row["top_cost"]
+    listed = listed_chance(row.get("status", ""), margin, row["heavy_atoms"], calibration)
+    out["top_probability"] = round(listed * float(probs[best]), 4)
+    out["unlisted_probability"] = round(1.0 - listed, 4)
+    return out
+
+
+def _fit_terms(result) -> list[list[float]]:
+    """Per listed candidate: (assignment cost, prior) before calibration."""
+    cal = load_calibration()
+    return [[round((c.score - cal.prior_weight * c.prior) / cal.fit_weight, 4), round(c.prior, 4)]
+            for c in result.candidates]
+
+
+def _top_cost(result, formula, peaks, settings) -> float | None:
+    """Approximate cost of the best listed candidate (None without one)."""
+    if not result.candidates:
+        return None
+    mol = Chem.MolFromSmiles(result.candidates[0].smiles)
+    cost = approximate_cost(mol, formula, peaks, settings) if mol is not None else None
+    return None if cost is None or math.isinf(cost) else round(cost, 3)
 
 
 def _band(n: int) -> str:

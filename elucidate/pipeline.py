@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Callable, Sequence
 
 from rdkit import Chem
@@ -40,6 +40,7 @@ from .generate import WIDE_VALENCES, AtomType, Structure, StructureFilter, _char
 from .generate.atomtypes import type_distributions
 from .predict import predict_mol
 from .rank.assignment import Assignment, CarbonClass, LineEntry, assign_lines
+from .rank.calibration import Calibration, calibrated_scores, listed_chance, listed_probabilities, load_calibration
 from .spectrum.peaks import PeakList, check_against_formula, read_peaks
 from .spectrum.solvents import remove_solvent_lines
 
@@ -123,6 +124,8 @@ class SolveResult:
     warnings: tuple[str, ...]
     candidates: tuple[Candidate, ...]
     constraint_log: tuple[tuple[str, int, int], ...]
+    #: calibrated probability that the answer is none of the listed structures
+    unlisted_probability: float = 0.0
 
     @property
     def dbe(self) -> int:
@@ -406,7 +409,6 @@ def solve(
                 scored.append(item)
 
     ranked = sorted(scored, key=_rank_key)[: settings.keep]
-    candidates = _finalise(ranked, settings.top)
     if exhausted:
         status, cost_bound = "complete", None
     elif proven_bound is not None:
@@ -414,17 +416,27 @@ def solve(
         status, cost_bound = "complete up to cost", math.floor(proven_bound * 1000) / 1000
     else:
         status, cost_bound = "stopped at the time limit", None
+    calibration = load_calibration()
+    candidates = _finalise(ranked, settings.top, calibration)
+    margin = None
+    if candidates and cost_bound is not None and rule is not None:
+        entry = found.get(candidates[0].smiles)
+        mol = entry[1] if entry is not None else Chem.MolFromSmiles(candidates[0].smiles)
+        margin = cost_bound - rule.structure_cost(mol)
+    listed = listed_chance(status, margin, formula.heavy_atoms, calibration) if candidates else 0.0
+    candidates = [replace(c, probability=listed * c.probability) for c in candidates]
     counter = n_found if steer else len(found)
     warnings = list(peaks.warnings)
     if status == "stopped at the time limit":
         warnings.append(
             f"search stopped at the time limit ({settings.time_limit:g} s): the list is not "
-            "exhaustive and probabilities are relative to the structures found"
+            f"exhaustive; calibrated probability that the answer is not listed: {1.0 - listed:.2f}"
         )
     elif status == "complete up to cost":
         warnings.append(
             f"fit-steered search: every structure not listed has an approximate (environment) cost "
-            f"of at least {cost_bound:.3f}; probabilities are relative to the structures listed"
+            f"of at least {cost_bound:.3f}; calibrated probability that the answer is not listed: "
+            f"{1.0 - listed:.2f}"
         )
     if not candidates:
         warnings.append(
@@ -454,6 +466,7 @@ def solve(
         warnings=tuple(warnings),
         candidates=tuple(candidates),
         constraint_log=tuple(log),
+        unlisted_probability=1.0 - listed,
     )
 
 
@@ -681,14 +694,19 @@ def _score(structure, peaks, prior, smiles_written: bool = True) -> "_Scored | N
                    _smiles_order(structure.mol, smiles_written))
 
 
-def _finalise(ranked: Sequence[_Scored], top: int) -> list[Candidate]:
+def _finalise(ranked: Sequence[_Scored], top: int, calibration: Calibration) -> list[Candidate]:
+    """Candidates ordered by calibrated score, with their probabilities
+    given that the answer is listed (rank/calibration.py)."""
     if not ranked:
         return []
-    best = ranked[0].score
-    weights = [math.exp(-(s.score - best)) for s in ranked]
-    total = sum(weights)
+    fit = [s.score - s.prior for s in ranked]
+    prior = [s.prior for s in ranked]
+    probs = listed_probabilities(fit, prior, calibration)
+    scores = calibrated_scores(fit, prior, calibration)
+    order = sorted(range(len(ranked)), key=lambda i: (float(scores[i]), ranked[i].smiles))
     out = []
-    for s, w in zip(ranked[:top], weights[:top]):
+    for k in order[:top]:
+        s, w = ranked[k], float(probs[k])
         pos = s.order
         entries = tuple(
             LineEntry(e.peak_index, e.observed, e.predicted, e.sigma,
@@ -699,8 +717,8 @@ def _finalise(ranked: Sequence[_Scored], top: int) -> list[Candidate]:
         out.append(
             Candidate(
                 smiles=s.smiles,
-                score=round(s.score, 4),
-                probability=w / total,
+                score=round(float(scores[k]), 4),
+                probability=w,
                 mae_ppm=s.assignment.mae,
                 max_error_ppm=s.assignment.max_error,
                 assignment=entries,

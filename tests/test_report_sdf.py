@@ -60,6 +60,8 @@ def test_properties_round_trip(data, tmp_path):
         assert float(mol.GetProp("ELUCIDATE_MAE_PPM")) == pytest.approx(cand["mae_ppm"], abs=0.005)
         assert float(mol.GetProp("ELUCIDATE_MAX_ERROR_PPM")) == pytest.approx(cand["max_error_ppm"], abs=0.005)
         assert mol.GetProp("ELUCIDATE_SEARCH_COMPLETE") == ("yes" if data["complete"] else "no")
+        assert float(mol.GetProp("ELUCIDATE_UNLISTED_PROBABILITY")) == pytest.approx(
+            data["unlisted_probability"], abs=1e-4)
         assert mol.GetProp("NMREDATA_FORMULA") == "C7H8"
         assert "hypotheses" in mol.GetProp("ELUCIDATE_CAUTION")
         # predicted shifts: one row per carbon, 1-based atoms

@@ -433,9 +433,13 @@ def _search(data: dict) -> str:
                    "constitution consistent with them was generated and ranked.</p>")
     elif complete is False:
         out.append('<p class="status-cut">The search was cut short (time limit): structures may be missing '
-                   "from this list, and probabilities are relative to the structures found.</p>")
+                   "from this list.</p>")
     else:
         out.append('<p class="status-cut">Completeness of the search is not recorded in this result.</p>')
+    if data.get("unlisted_probability") is not None:
+        out.append(f"<p>Probability that the answer is none of the listed structures: "
+                   f"{_f(data['unlisted_probability'], 2)} (calibrated on elucidation runs over held-out "
+                   "training compounds); the listed probabilities sum to the rest.</p>")
     facts = []
     if data.get("candidates_generated") is not None:
         facts.append(("Structures ranked", _e(f"{data['candidates_generated']:,}")))
@@ -462,7 +466,8 @@ def _summary(cands: list[dict]) -> str:
             _f(c.get("probability"), 3), _f(c.get("mae_ppm")), _f(c.get("max_error_ppm")), _e(_notes(c)),
         ])
     return _table(["rank", "SMILES", "probability", "MAE / ppm", "max / ppm", "notes"], rows, {0, 2, 3, 4},
-                  "Ranked candidates (probabilities are relative to the listed structures)")
+                  "Ranked candidates (probability of each being the answer; see the search section for the "
+                  "chance that the answer is not listed)")
 
 
 def _candidate(c: dict, peaks: list[dict]) -> str:
@@ -609,8 +614,9 @@ def _page(title: str, body: list[str]) -> str:
         "chromatographic co-injection).</li>"
         "<li>Forensic and QC decisions follow the laboratory's accredited procedures and local "
         "regulations, never this report alone.</li>"
-        "<li>An incomplete search may miss the right structure; probabilities are relative to the "
-        "listed candidates only.</li></ul></div>",
+        "<li>An incomplete search may miss the right structure; the probabilities are calibrated "
+        "estimates from held-out training compounds, not guarantees, and the chance that the answer "
+        "is not listed is stated with the search.</li></ul></div>",
         f"<footer>Rendered by elucidate {_e(__version__)} from the saved result data; "
         "structure pictures drawn with RDKit.</footer>",
     ]

@@ -27,7 +27,9 @@ separated by commas, atom numbers refer to the molfile (1-based).
 Properties that NMReDATA has no tag for use an ``ELUCIDATE_`` prefix:
 ``ELUCIDATE_RANK``, ``ELUCIDATE_SCORE``, ``ELUCIDATE_PROBABILITY``,
 ``ELUCIDATE_MAE_PPM``, ``ELUCIDATE_MAX_ERROR_PPM``,
-``ELUCIDATE_SEARCH_COMPLETE``, ``ELUCIDATE_PREDICTED_13C`` (one line per
+``ELUCIDATE_SEARCH_COMPLETE``, ``ELUCIDATE_UNLISTED_PROBABILITY`` (calibrated
+chance that the answer is none of the listed structures; the same in every
+record), ``ELUCIDATE_PREDICTED_13C`` (one line per
 carbon: ``atom, hydrogens, predicted shift, uncertainty``) and
 ``ELUCIDATE_CAUTION``.  Missing numbers are written as ``nan``.
 """
@@ -152,6 +154,8 @@ def render_sdf(data: dict, *, top: int | None = None) -> str:
         ]
         if "complete" in data:
             props.append(("ELUCIDATE_SEARCH_COMPLETE", "yes" if data["complete"] else "no"))
+        if data.get("unlisted_probability") is not None:
+            props.append(("ELUCIDATE_UNLISTED_PROBABILITY", _num(data["unlisted_probability"], 4)))
         if predicted:
             props.append(("ELUCIDATE_PREDICTED_13C", _lines(predicted)))
         if caution:

@@ -32,6 +32,7 @@ def result_to_dict(result: SolveResult) -> dict:
         "dbe": result.dbe,
         "complete": result.complete,
         "completeness": {"status": result.completeness[0], "cost_bound": result.completeness[1]},
+        "unlisted_probability": _num(result.unlisted_probability, 4),
         "candidates_generated": result.candidates_generated,
         "elapsed_s": _num(result.elapsed_s, 3),
         "warnings": list(result.warnings),

@@ -1,0 +1,201 @@
+"""Calibrated candidate probabilities: fitted score weights and the chance
+that the answer is not listed at all.
+
+Method
+------
+A candidate's raw score has two parts, the assignment cost ``f`` (Student-t
+shift likelihood with overlap/split penalties, :mod:`elucidate.rank.likelihood`)
+and the environment-rarity prior ``r``.  Probabilities over the listed
+candidates follow a conditional logit model (McFadden, in *Frontiers in
+Econometrics*, 1974; from memory)::
+
+    P(candidate i | answer listed) = exp(-(a f_i + b r_i)) / sum_j exp(-(a f_j + b r_j))
+
+which is the DP4 idea (Smith & Goodman, J. Am. Chem. Soc. 2010, 132, 12946;
+from memory) with two fitted weights: ``a`` acts as an inverse temperature on
+the shift evidence (predicted-shift errors of one structure are correlated,
+so the raw likelihood is over-confident) and ``b`` sets how much the prior
+counts against it.  The weights maximise the likelihood of the true
+constitution among the listed candidates.
+
+A list is not always exhaustive.  The chance that the answer is listed at
+all, ``q``, is the observed rate for complete searches, and for incomplete
+ones a logistic model (Platt scaling; Platt, in *Advances in Large Margin
+Classifiers*, 1999; from memory) of the search's state::
+
+    logit q = c0 + c1 * margin + c2 * heavy_atoms / 10
+
+where ``margin`` is the proven cost bound minus the approximate cost of the
+best listed candidate (0 when no bound was proven).  The listed probabilities
+are multiplied by ``q``; ``1 - q`` is reported as the probability that the
+answer is not among the listed structures.
+
+All parameters are fitted by ``scripts/fit_calibration.py`` on elucidation
+runs over training constitutions held out from a rebuilt shift table
+(``scripts/calibration_split.py``), never on the bench; the fitted values
+ship in ``elucidate/data/calibration.json`` with their provenance.  Without
+that file the weights are 1 and ``q`` is 1 (plain DP4-style normalisation).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Sequence
+
+import numpy as np
+
+__all__ = [
+    "Calibration",
+    "DEFAULT_CALIBRATION_PATH",
+    "load_calibration",
+    "calibrated_scores",
+    "listed_probabilities",
+    "listed_chance",
+    "fit_score_weights",
+    "fit_listed_model",
+]
+
+DEFAULT_CALIBRATION_PATH = Path(__file__).resolve().parent.parent / "data" / "calibration.json"
+
+
+@dataclass(frozen=True)
+class Calibration:
+    """Fitted parameters (defaults: the uncalibrated DP4-style model)."""
+
+    fit_weight: float = 1.0
+    prior_weight: float = 1.0
+    listed_when_complete: float = 1.0
+    listed_logit: tuple[float, float, float] | None = None  # (c0, c1, c2); None: q = 1
+    provenance: dict = field(default_factory=dict, compare=False)
+
+    def __post_init__(self):
+        if not (self.fit_weight > 0 and self.prior_weight >= 0):
+            raise ValueError(f"calibration weights must be positive, got {self.fit_weight}, "
+                             f"{self.prior_weight}; refit with scripts/fit_calibration.py")
+        if not 0 < self.listed_when_complete <= 1:
+            raise ValueError(f"listed_when_complete must lie in (0, 1], got {self.listed_when_complete}")
+
+    def to_dict(self) -> dict:
+        return {
+            "format": "elucidate-calibration/1",
+            "fit_weight": self.fit_weight,
+            "prior_weight": self.prior_weight,
+            "listed_when_complete": self.listed_when_complete,
+            "listed_logit": list(self.listed_logit) if self.listed_logit is not None else None,
+            "provenance": self.provenance,
+        }
+
+
+_LOADED: dict[str, Calibration] = {}
+
+
+def load_calibration(path: str | Path | None = None) -> Calibration:
+    """The shipped calibration (cached per path); defaults when the file is absent."""
+    p = Path(path) if path else DEFAULT_CALIBRATION_PATH
+    key = str(p)
+    if key not in _LOADED:
+        if not p.is_file():
+            _LOADED[key] = Calibration()
+        else:
+            d = json.loads(p.read_text(encoding="utf-8"))
+            logit = d.get("listed_logit")
+            _LOADED[key] = Calibration(
+                fit_weight=float(d["fit_weight"]),
+                prior_weight=float(d["prior_weight"]),
+                listed_when_complete=float(d["listed_when_complete"]),
+                listed_logit=tuple(float(x) for x in logit) if logit is not None else None,
+                provenance=d.get("provenance", {}),
+            )
+    return _LOADED[key]
+
+
+def calibrated_scores(fit_costs: Sequence[float], priors: Sequence[float],
+                      calibration: Calibration) -> np.ndarray:
+    """``a f + b r`` per candidate (lower is better)."""
+    f = np.asarray(fit_costs, dtype=float)
+    r = np.asarray(priors, dtype=float)
+    return calibration.fit_weight * f + calibration.prior_weight * r
+
+
+def listed_probabilities(fit_costs: Sequence[float], priors: Sequence[float],
+                         calibration: Calibration) -> np.ndarray:
+    """P(candidate | the answer is listed), summing to 1 over the list."""
+    s = calibrated_scores(fit_costs, priors, calibration)
+    if s.size == 0:
+        return s
+    w = np.exp(-(s - s.min()))
+    return w / w.sum()
+
+
+def _sigmoid(x: float) -> float:
+    return 1.0 / (1.0 + math.exp(-x)) if x >= 0 else math.exp(x) / (1.0 + math.exp(x))
+
+
+def listed_chance(status: str, margin: float | None, heavy_atoms: int,
+                  calibration: Calibration) -> float:
+    """Probability that the answer is among the listed structures."""
+    if status == "complete":
+        return calibration.listed_when_complete
+    if calibration.listed_logit is None:
+        return 1.0
+    c0, c1, c2 = calibration.listed_logit
+    m = max(0.0, margin) if margin is not None else 0.0
+    return _sigmoid(c0 + c1 * m + c2 * heavy_atoms / 10.0)
+
+
+# ---------------------------------------------------------------- fitting
+
+def fit_score_weights(cases: Sequence[tuple[np.ndarray, np.ndarray, int]],
+                      iterations: int = 50) -> tuple[float, float]:
+    """Maximum-likelihood conditional-logit weights ``(a, b)``.
+
+    ``cases``: per case, the listed candidates' assignment costs, their
+    priors, and the index of the true constitution among them.  Newton's
+    method on the concave log-likelihood; raises ValueError without data.
+    """
+    cases = [(np.asarray(f, float), np.asarray(r, float), int(k)) for f, r, k in cases if len(f) > 1]
+    if not cases:
+        raise ValueError("no case lists the answer among two or more candidates; run more held-out cases")
+    theta = np.array([1.0, 1.0])
+    for _ in range(iterations):
+        grad = np.zeros(2)
+        hess = np.zeros((2, 2))
+        for f, r, k in cases:
+            x = np.stack([f, r], axis=1)  # features; utility = -x @ theta
+            u = -(x @ theta)
+            p = np.exp(u - u.max())
+            p /= p.sum()
+            mean = p @ x
+            grad += -(x[k] - mean)
+            cov = (x * p[:, None]).T @ x - np.outer(mean, mean)
+            hess -= cov
+        step = np.linalg.solve(hess - 1e-9 * np.eye(2), grad)
+        theta = theta - step
+        theta = np.maximum(theta, [1e-3, 0.0])
+        if np.abs(step).max() < 1e-8:
+            break
+    return float(theta[0]), float(theta[1])
+
+
+def fit_listed_model(features: Sequence[tuple[float, float]], listed: Sequence[bool],
+                     ridge: float = 1e-2, iterations: int = 100) -> tuple[float, float, float]:
+    """Logistic regression ``logit q = c0 + c1 margin + c2 heavy/10`` by
+    Newton's method with a small ridge penalty (keeps the fit finite when
+    the classes separate)."""
+    if len(features) != len(listed) or not features:
+        raise ValueError("fit_listed_model needs one (margin, heavy_atoms) pair per outcome")
+    x = np.array([[1.0, max(0.0, m), h / 10.0] for m, h in features])
+    y = np.array([1.0 if v else 0.0 for v in listed])
+    w = np.zeros(3)
+    for _ in range(iterations):
+        p = 1.0 / (1.0 + np.exp(-(x @ w)))
+        grad = x.T @ (y - p) - ridge * w
+        hess = -(x * (p * (1 - p))[:, None]).T @ x - ridge * np.eye(3)
+        step = np.linalg.solve(hess, grad)
+        w = w - step
+        if np.abs(step).max() < 1e-10:
+            break
+    return float(w[0]), float(w[1]), float(w[2])
