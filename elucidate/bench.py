@@ -28,7 +28,8 @@ from .rank.calibration import calibrated_scores, listed_chance, listed_probabili
 from .pipeline import SolveSettings, approximate_cost, explain_constraints, solve
 from .spectrum.peaks import peaks_from_records
 
-__all__ = ["read_cases", "run_bench", "recalibrate_row", "format_bench_table", "calibration_table", "BANDS"]
+__all__ = ["read_cases", "run_bench", "recalibrate_row", "format_bench_table", "calibration_table",
+           "unlisted_check", "BANDS"]
 
 def _canon(smiles: str) -> str | None:
     mol = Chem.MolFromSmiles(smiles)
@@ -196,6 +197,7 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
     lines.append("cover = where a bound was stated, the answer's approximate cost is within it")
     lines.append("surv = the answer passes every default constraint (checked on the answer itself)")
     lines.extend(calibration_table(rows))
+    lines.extend(unlisted_check(rows))
     killers: dict[str, int] = {}
     for r in rows:
         for name in r.get("answer_failed_constraints", []):
@@ -206,6 +208,20 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
     if errors:
         lines.append(f"{len(errors)} case(s) rejected as input errors, e.g. {errors[0]['id']}: {errors[0]['error']}")
     return "\n".join(lines)
+
+
+def unlisted_check(rows: list[dict]) -> list[str]:
+    """Stated chance that the answer is not listed vs how often it was not.
+
+    >>> unlisted_check([{"unlisted_probability": 0.3, "rank": None}, {"unlisted_probability": 0.1, "rank": 4}])
+    ['answer not listed: predicted 20.0 % (mean over 2 cases), observed 50.0 %']
+    """
+    sel = [r for r in rows if r.get("unlisted_probability") is not None]
+    if not sel:
+        return []
+    pred = 100.0 * sum(r["unlisted_probability"] for r in sel) / len(sel)
+    obs = 100.0 * sum(1 for r in sel if r["rank"] is None) / len(sel)
+    return [f"answer not listed: predicted {pred:.1f} % (mean over {len(sel)} cases), observed {obs:.1f} %"]
 
 
 def calibration_table(rows: list[dict], edges=(0.0, 0.2, 0.4, 0.6, 0.8, 0.95, 1.0001)) -> list[str]:

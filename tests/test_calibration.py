@@ -125,3 +125,29 @@ def test_solve_reports_the_unlisted_share():
     assert res.candidates[0].smiles == "CCOC(C)=O"
     scores = [c.score for c in res.candidates]
     assert scores == sorted(scores)
+
+
+def test_bench_recalibration_matches_a_native_solve(monkeypatch):
+    # 2-pentanone lines without multiplicities (typical CDCl3 values, from
+    # memory); the search is complete, so only the calibration differs
+    # between the two solves
+    import elucidate.pipeline as pipeline
+
+    peaks = "209.0, 45.7, 29.9, 17.4, 13.8"
+    settings = SolveSettings(time_limit=20, top=200, keep=200)
+    monkeypatch.setattr(pipeline, "load_calibration", lambda: Calibration())
+    plain = solve("C5H10O", peaks, settings)
+    other = Calibration(fit_weight=0.4, prior_weight=3.0)
+    monkeypatch.setattr(pipeline, "load_calibration", lambda: other)
+    native = solve("C5H10O", peaks, settings)
+    assert plain.complete and native.complete
+    terms = [[c.score - c.prior, c.prior] for c in plain.candidates]
+    native_rank = {c.smiles: i + 1 for i, c in enumerate(native.candidates)}
+    # the weights matter here: the two orders differ within the first 15
+    assert [c.smiles for c in plain.candidates[:15]] != [c.smiles for c in native.candidates[:15]]
+    for k, c in enumerate(plain.candidates[:15]):
+        row = {"rank": k + 1, "heavy_atoms": 6, "status": "complete", "cost_bound": None,
+               "top_cost": None, "fit_terms": terms}
+        again = recalibrate_row(row, other)
+        assert again["rank"] == native_rank[c.smiles]
+        assert again["top_probability"] == pytest.approx(native.candidates[0].probability, abs=1e-4)
