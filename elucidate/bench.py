@@ -24,7 +24,7 @@ from rdkit import Chem
 from .cases import BANDS, read_cases
 from .errors import InputError
 from .formula import parse_formula
-from .rank.calibration import calibrated_scores, listed_chance, listed_probabilities, load_calibration
+from .rank.calibration import calibrated_scores, listed_chance, listed_probabilities
 from .pipeline import SolveSettings, approximate_cost, explain_constraints, solve
 from .spectrum.peaks import peaks_from_records
 
@@ -96,7 +96,7 @@ def run_bench(
                 unlisted_probability=round(result.unlisted_probability, 4),
                 # per listed candidate: (assignment cost, prior), for refitting
                 # the probability calibration (rank/calibration.py)
-                fit_terms=_fit_terms(result),
+                fit_terms=[[c.fit_cost, c.prior] for c in result.candidates],
                 top_cost=_top_cost(result, formula, peaks, settings),
             )
         rows.append(row)
@@ -121,7 +121,7 @@ def recalibrate_row(row: dict, calibration) -> dict:
     f = [t[0] for t in terms]
     r = [t[1] for t in terms]
     scores = calibrated_scores(f, r, calibration)
-    probs = listed_probabilities(f, r, calibration)
+    probs = listed_probabilities(scores)
     best = int(np.argmin(scores))
     out = dict(row)
     if row.get("rank") is not None:
@@ -135,13 +135,6 @@ def recalibrate_row(row: dict, calibration) -> dict:
     out["top_probability"] = round(listed * float(probs[best]), 4)
     out["unlisted_probability"] = round(1.0 - listed, 4)
     return out
-
-
-def _fit_terms(result) -> list[list[float]]:
-    """Per listed candidate: (assignment cost, prior) before calibration."""
-    cal = load_calibration()
-    return [[round((c.score - cal.prior_weight * c.prior) / cal.fit_weight, 4), round(c.prior, 4)]
-            for c in result.candidates]
 
 
 def _top_cost(result, formula, peaks, settings) -> float | None:

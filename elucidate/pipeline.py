@@ -109,7 +109,8 @@ class Candidate:
     overlaps: int
     splits: int
     unfilled: tuple[int, ...]
-    prior: float = 0.0  # environment-rarity prior part of the score
+    prior: float = 0.0  # environment-rarity prior part of the raw score
+    fit_cost: float = 0.0  # assignment part (shift likelihood, overlap/split) of the raw score
 
 
 @dataclass(frozen=True)
@@ -699,10 +700,8 @@ def _finalise(ranked: Sequence[_Scored], top: int, calibration: Calibration) -> 
     given that the answer is listed (rank/calibration.py)."""
     if not ranked:
         return []
-    fit = [s.score - s.prior for s in ranked]
-    prior = [s.prior for s in ranked]
-    probs = listed_probabilities(fit, prior, calibration)
-    scores = calibrated_scores(fit, prior, calibration)
+    scores = calibrated_scores([s.score - s.prior for s in ranked], [s.prior for s in ranked], calibration)
+    probs = listed_probabilities(scores)
     order = sorted(range(len(ranked)), key=lambda i: (float(scores[i]), ranked[i].smiles))
     out = []
     for k in order[:top]:
@@ -727,6 +726,7 @@ def _finalise(ranked: Sequence[_Scored], top: int, calibration: Calibration) -> 
                 splits=s.assignment.splits,
                 unfilled=s.assignment.unfilled,
                 prior=round(s.prior, 4),
+                fit_cost=round(s.score - s.prior, 4),
             )
         )
     return out

@@ -68,9 +68,9 @@ def test_listed_model_recovered_from_simulated_outcomes():
 def test_probabilities_sum_to_one_and_follow_scores():
     cal = Calibration(fit_weight=0.5, prior_weight=2.0)
     f, r = [3.0, 1.0, 2.0], [0.0, 2.0, 0.5]
-    p = listed_probabilities(f, r, cal)
-    assert p.sum() == pytest.approx(1.0)
     s = calibrated_scores(f, r, cal)
+    p = listed_probabilities(s)
+    assert p.sum() == pytest.approx(1.0)
     assert list(np.argsort(-p)) == list(np.argsort(s))
     assert listed_chance("complete", None, 12, Calibration(listed_when_complete=0.97)) == 0.97
     # no listed-answer model: incomplete lists keep q = 1 (plain DP4-style normalisation)
@@ -141,7 +141,8 @@ def test_bench_recalibration_matches_a_native_solve(monkeypatch):
     monkeypatch.setattr(pipeline, "load_calibration", lambda: other)
     native = solve("C5H10O", peaks, settings)
     assert plain.complete and native.complete
-    terms = [[c.score - c.prior, c.prior] for c in plain.candidates]
+    terms = [[c.fit_cost, c.prior] for c in plain.candidates]
+    assert all(c.score == pytest.approx(c.fit_cost + c.prior, abs=2e-4) for c in plain.candidates)
     native_rank = {c.smiles: i + 1 for i, c in enumerate(native.candidates)}
     # the weights matter here: the two orders differ within the first 15
     assert [c.smiles for c in plain.candidates[:15]] != [c.smiles for c in native.candidates[:15]]

@@ -120,10 +120,10 @@ def calibrated_scores(fit_costs: Sequence[float], priors: Sequence[float],
     return calibration.fit_weight * f + calibration.prior_weight * r
 
 
-def listed_probabilities(fit_costs: Sequence[float], priors: Sequence[float],
-                         calibration: Calibration) -> np.ndarray:
-    """P(candidate | the answer is listed), summing to 1 over the list."""
-    s = calibrated_scores(fit_costs, priors, calibration)
+def listed_probabilities(scores: Sequence[float]) -> np.ndarray:
+    """P(candidate | the answer is listed) from calibrated scores
+    (:func:`calibrated_scores`), summing to 1 over the list."""
+    s = np.asarray(scores, dtype=float)
     if s.size == 0:
         return s
     w = np.exp(-(s - s.min()))

@@ -41,6 +41,7 @@ import re
 from typing import Any
 
 from ..errors import InputError
+from .text import unlisted_sentence
 
 __all__ = ["render_html", "check_result_data", "depiction_svg", "stick_spectrum_svg"]
 
@@ -437,9 +438,7 @@ def _search(data: dict) -> str:
     else:
         out.append('<p class="status-cut">Completeness of the search is not recorded in this result.</p>')
     if data.get("unlisted_probability") is not None:
-        out.append(f"<p>Probability that the answer is none of the listed structures: "
-                   f"{_f(data['unlisted_probability'], 2)} (calibrated on elucidation runs over held-out "
-                   "training compounds); the listed probabilities sum to the rest.</p>")
+        out.append(f"<p>{_e(unlisted_sentence(data['unlisted_probability']))}</p>")
     facts = []
     if data.get("candidates_generated") is not None:
         facts.append(("Structures ranked", _e(f"{data['candidates_generated']:,}")))

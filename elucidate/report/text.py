@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["render_text"]
+__all__ = ["render_text", "unlisted_sentence"]
 
 
 def render_text(data: dict) -> str:
@@ -86,12 +86,12 @@ def render_text(data: dict) -> str:
         out.append("The search was cut short: structures may be missing from this list.")
     unlisted = data.get("unlisted_probability")
     if unlisted is not None:
-        out.append(_unlisted_sentence(unlisted))
+        out.append(unlisted_sentence(unlisted))
     out.append(data["caution"])
     return "\n".join(out) + "\n"
 
 
-def _unlisted_sentence(unlisted: float) -> str:
+def unlisted_sentence(unlisted: float) -> str:
     """One sentence on the chance that the answer is not listed."""
     return (f"Probability that the answer is none of the listed structures: {unlisted:.2f} "
             "(calibrated on elucidation runs over held-out training compounds); the listed "
