@@ -145,14 +145,18 @@ class _Scored:
 
 def rank_structure(mol: Chem.Mol, peaks: Sequence) -> tuple[Assignment, tuple]:
     """Predict a structure's shifts and assign the lines to its carbons."""
+    from .rank.assignment import SPLIT_COST
+    from .rank.rotamers import rotamer_split_costs
+
     shifts = {a.index: a for a in predict_mol(mol)}
+    split_costs = rotamer_split_costs(mol)  # classes rotamers can split (amide-type C-N)
     classes = []
     for h, groups in carbon_classes(mol).items():
         for atoms in groups:
             preds = [shifts[i] for i in atoms]
             shift = sum(p.shift for p in preds) / len(preds)
             sigma = max(p.sigma for p in preds)
-            classes.append(CarbonClass(h, tuple(atoms), shift, sigma))
+            classes.append(CarbonClass(h, tuple(atoms), shift, sigma, split_costs.get(atoms[0], SPLIT_COST)))
     predicted = tuple((a.index, a.hydrogens, a.shift, a.sigma) for a in shifts.values())
     return assign_lines(peaks, classes), predicted
 

@@ -3,7 +3,8 @@
 1. Symmetry: how often the number of lines per multiplicity differs from the
    number of topologically distinct carbons (overlap / split), for neutral
    molecules with <= 22 heavy atoms.  Used for the default allowance and the
-   penalties in elucidate/constraints/spectral.py and rank/assignment.py.
+   penalties in elucidate/constraints/spectral.py and rank/assignment.py
+   (rotamer splitting per class: scripts/measure_rotamer_splits.py).
 2. Implausible motifs: the share of training constitutions containing each
    motif of elucidate/constraints/structural.py.
 

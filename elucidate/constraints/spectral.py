@@ -21,7 +21,10 @@ Three pieces of evidence come from the spectrum before any shift is predicted:
   figures in ``docs/constraints.md``).  The default hard allowance
   (overlap <= 4, split <= 3) therefore drops almost nothing true; within the
   allowance, ranking charges each overlap and split its negative log
-  frequency (:mod:`elucidate.rank.assignment`).
+  frequency (:mod:`elucidate.rank.assignment`), and less for the first
+  extra line of a class that amide-type rotamers can split
+  (:mod:`elucidate.rank.rotamers`).  A rotamer-doubled N,N-diethylamide
+  (two split classes) is well inside the allowance.
 """
 
 from __future__ import annotations

@@ -12,7 +12,9 @@ multiplicity takes any class) so that the total cost is minimal, where
 * a line may carry further classes (accidental overlap of inequivalent
   carbons) at ``OVERLAP_COST`` each;
 * a class of two or more equivalent carbons may also appear under a second
-  or third line (diastereotopic or rotamer splitting) at ``SPLIT_COST`` each.
+  or third line (diastereotopic or rotamer splitting) at ``SPLIT_COST`` each;
+  a class's own ``split_cost`` replaces it for its first extra line (classes
+  that rotation about an amide-type bond can split, :mod:`.rotamers`).
 
 Method
 ------
@@ -20,10 +22,13 @@ Without line counts this is a minimum-cost flow problem (source -> class ->
 line -> sink, with the costs above on the arcs), solved exactly with OR-Tools'
 min-cost-flow solver, which generalises the Hungarian assignment (Kuhn 1955)
 to capacities.  With counts on every line, carbons are matched to line
-slots one to one with the Hungarian method (:mod:`.hungarian`).
+slots one to one with the Hungarian method (:mod:`.hungarian`); the counts
+already fix how many carbons stand under each line, and that path charges
+only the shift costs (no overlap or split penalty, whatever ``split_cost``).
 
 The penalty sizes are the negative log frequencies of overlap and splitting
-in the training spectra (see :mod:`elucidate.constraints.spectral`).
+in the training spectra (see :mod:`elucidate.constraints.spectral` and, for
+rotamer splitting, :mod:`.rotamers`).
 """
 
 from __future__ import annotations
@@ -35,6 +40,7 @@ from typing import Sequence
 import numpy as np
 from ortools.graph.python import min_cost_flow
 
+from ..errors import InputError
 from .hungarian import solve_assignment
 from .likelihood import shift_cost, shift_cost_matrix
 
@@ -60,12 +66,23 @@ _FORCE = 10**9
 
 @dataclass(frozen=True)
 class CarbonClass:
-    """Symmetry-equivalent carbons of a candidate with their prediction."""
+    """Symmetry-equivalent carbons of a candidate with their prediction.
+
+    ``split_cost`` is the cost of the class's first extra line (further extra
+    lines cost ``SPLIT_COST``); it lies in [0, SPLIT_COST].  Classes that
+    rotamers can split take theirs from :func:`.rotamers.rotamer_split_costs`.
+    """
 
     hydrogens: int
     atoms: tuple[int, ...]
     shift: float
     sigma: float
+    split_cost: float = SPLIT_COST
+
+    def __post_init__(self):
+        if not 0.0 <= self.split_cost <= SPLIT_COST:
+            raise InputError(f"split_cost {self.split_cost!r} of carbon class {self.atoms} is outside "
+                             f"[0, SPLIT_COST = {SPLIT_COST:.3f}]; a class may only make splitting cheaper")
 
 
 @dataclass(frozen=True)
@@ -156,12 +173,19 @@ def _assign_flow(peaks, classes) -> Assignment:
     cnode = 2 + np.arange(nc)
     lnode = 2 + nc + np.arange(nl)
     pc, pl = np.nonzero(compat)
+    # Split arcs: a class's first extra line at its own split cost, any
+    # further one at SPLIT_COST (costs rise, so the flow takes them in order).
     has_split = np.nonzero(split_cap)[0]
-    tails = [np.zeros(nc, np.int64), np.zeros(len(has_split), np.int64), cnode[pc], lnode, lnode]
-    heads = [cnode, cnode[has_split], lnode[pl], np.full(nl, sink), np.full(nl, sink)]
-    caps = [np.ones(nc, np.int64), split_cap[has_split], np.ones(len(pc), np.int64),
-            np.ones(nl, np.int64), np.full(nl, nc, np.int64)]
-    costs = [np.full(nc, -_FORCE, np.int64), np.full(len(has_split), round(SPLIT_COST * _SCALE), np.int64),
+    more_split = np.nonzero(split_cap > 1)[0]
+    first_cost = np.array([round(classes[c].split_cost * _SCALE) for c in has_split], np.int64)
+    tails = [np.zeros(nc, np.int64), np.zeros(len(has_split) + len(more_split), np.int64),
+             cnode[pc], lnode, lnode]
+    heads = [cnode, cnode[np.concatenate([has_split, more_split])], lnode[pl], np.full(nl, sink),
+             np.full(nl, sink)]
+    caps = [np.ones(nc, np.int64), np.concatenate([np.ones(len(has_split), np.int64), split_cap[more_split] - 1]),
+            np.ones(len(pc), np.int64), np.ones(nl, np.int64), np.full(nl, nc, np.int64)]
+    costs = [np.full(nc, -_FORCE, np.int64),
+             np.concatenate([first_cost, np.full(len(more_split), round(SPLIT_COST * _SCALE), np.int64)]),
              np.round(cost[pc, pl] * _SCALE).astype(np.int64),
              np.full(nl, round(-UNFILLED_COST * _SCALE), np.int64),
              np.full(nl, round(OVERLAP_COST * _SCALE), np.int64)]
@@ -170,7 +194,7 @@ def _assign_flow(peaks, classes) -> Assignment:
         heads.append(np.array([sink]))
         caps.append(np.array([total_split]))
         costs.append(np.array([0]))
-    first_pair = nc + len(has_split)
+    first_pair = nc + len(has_split) + len(more_split)
 
     flow = min_cost_flow.SimpleMinCostFlow()
     arcs = flow.add_arcs_with_capacity_and_unit_cost(
@@ -207,7 +231,7 @@ def _assign_flow(peaks, classes) -> Assignment:
             if rank_in_class > 0:
                 kind = "split"
                 splits += 1
-                total += SPLIT_COST
+                total += classes[c].split_cost if rank_in_class == 1 else SPLIT_COST
             elif kind == "overlap":
                 overlaps += 1
                 total += OVERLAP_COST
