@@ -144,18 +144,58 @@ def predict(smiles):
     return predict_smiles(smiles)
 
 
-def to_dict(result) -> dict | list:
-    """The JSON-ready form the CLI prints for a solve, check or predict result."""
+def to_dict(result, *, sample_id: str | None = None, analyst: str | None = None,
+            reviewer: str | None = None, run_at=None, spectrum=None) -> dict | list:
+    """The JSON-ready form the CLI prints for a solve, check or predict result.
+
+    Parameters
+    ----------
+    result : SolveResult, CheckResult or tuple of AtomShift
+    sample_id, analyst, reviewer : str, optional
+        Solve results only: the sample ID and the names shown in the HTML
+        report's sign-off block (``run`` block of the JSON).
+    run_at : datetime, optional
+        Solve results only: when the run started (timezone-aware); default
+        the time of this call.  Take ``datetime.now(timezone.utc)`` before
+        :func:`solve` to record the start, or give a fixed time for
+        reproducible output.
+    spectrum : str, path or SpectrumTrace, optional
+        Solve results only: the JCAMP-DX 13C spectrum the lines were picked
+        from; its decimated trace is kept (``spectrum_trace``) so the report
+        can draw it.
+
+    Returns
+    -------
+    dict or list
+    """
+    from datetime import datetime, timezone
+    from os import PathLike
+
     from .pipeline import SolveResult
     from .predict import AtomShift
+    from .report.runinfo import RunInfo
     from .report.serialize import result_to_dict
+    from .spectrum.trace import SpectrumTrace, spectrum_trace
     from .workflows.check import CheckResult, check_to_dict
 
+    meta = {"sample_id": sample_id, "analyst": analyst, "reviewer": reviewer, "run_at": run_at,
+            "spectrum": spectrum}
     if isinstance(result, SolveResult):
-        data = result_to_dict(result)
-        data.setdefault("settings", {}).setdefault("scaffold", result.settings.scaffold)
-        data.setdefault("peaks_provenance", list(getattr(result.peaks, "provenance", ())))  # as the CLI
-        return data
+        run = RunInfo(run_at if run_at is not None else datetime.now(timezone.utc), sample_id, analyst, reviewer)
+        trace = spectrum
+        if isinstance(spectrum, (str, PathLike)):
+            trace = spectrum_trace(spectrum)
+            if trace is None:
+                raise InputError(f"spectrum {str(spectrum)!r} is a peak table, not a sampled spectrum; "
+                                 "give the 13C spectrum file or leave spectrum out")
+        elif spectrum is not None and not isinstance(spectrum, SpectrumTrace):
+            raise InputError(f"spectrum must be a JCAMP-DX file path or a SpectrumTrace, got "
+                             f"{type(spectrum).__name__}")
+        return result_to_dict(result, run=run, spectrum=trace)
+    given = [k for k, v in meta.items() if v is not None]
+    if given and isinstance(result, (CheckResult, tuple)):
+        raise InputError(f"{', '.join(given)} apply to solve results only; leave them out for "
+                         f"{type(result).__name__}")
     if isinstance(result, CheckResult):
         return check_to_dict(result)
     if isinstance(result, tuple) and all(isinstance(a, AtomShift) for a in result):

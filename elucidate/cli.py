@@ -178,9 +178,14 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Lines allowed beyond the carbon classes (diastereotopic/rotamer splitting).")
 @click.option("--scaffold", default=None, metavar="SMILES",
               help="Ring system every candidate must contain, e.g. a starting material's 'c1ccncc1'.")
+@click.option("--sample-id", default=None, metavar="ID", help="The lab's sample ID, shown in the report header.")
+@click.option("--analyst", default=None, metavar="NAME",
+              help="Analyst's name for the report's sign-off block (blank lines when not given).")
+@click.option("--reviewer", default=None, metavar="NAME",
+              help="Reviewer's name for the report's sign-off block (blank lines when not given).")
 def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90, valence, charged_nitrogen,
           require, forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
-          scaffold):
+          scaffold, sample_id, analyst, reviewer):
     """Rank every structure consistent with a formula and a 13C peak list.
 
     Peaks: one line per signal, 'shift [multiplicity] [count]'; multiplicity
@@ -192,14 +197,21 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90
 
       elucidate solve --formula C4H8O2 --peaks "171.1 C, 60.4 CH2, 21.0 CH3, 14.2 CH3"
 
+    A report to file and sign: add --format html -o report.html --sample-id
+    ID (and --analyst/--reviewer NAME to print the names in its sign-off
+    block).
+
     Results are hypotheses: confirm with reference standards and
     orthogonal methods.
     """
     from .constraints.spectral import SymmetryAllowance
     from .generate import WIDE_VALENCES, parse_valence_option
     from .pipeline import SolveSettings, solve as run_solve
+    from .report.runinfo import RunInfo
     from .report.serialize import result_to_dict
+    from .spectrum.trace import trace_for_peaks
 
+    run_info = RunInfo.now(sample_id, analyst, reviewer)  # the time the run starts
     f = _formula(formula)
     valences = dict(WIDE_VALENCES)
     valences.update(parse_valence_option(valence))
@@ -210,26 +222,25 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90
         symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
         time_limit=time_limit, top=top, scaffold=scaffold,
     )
+    source = peaks
     if dept135 or dept90:
         from .spectrum.peaks import read_peaks
 
         peaks = read_peaks(peaks, dept135=dept135, dept90=dept90)
     result = run_solve(f, peaks, settings, progress=_progress_printer())
     _clear_progress()
-    data = result_to_dict(result)
-    data.setdefault("peaks_provenance", list(result.peaks.provenance))
-    if result.peaks.observe_mhz:
-        data.setdefault("observe_mhz", result.peaks.observe_mhz)
-    _write(_render(data, fmt), output)
+    data = result_to_dict(result, run=run_info, spectrum=trace_for_peaks(source))
+    _write(_render(data, fmt, origin="run"), output)
 
 
-def _render(data: dict, fmt: str, top: int | None = None) -> str:
+def _render(data: dict, fmt: str, top: int | None = None, origin: str | None = None,
+            saved_file: str | None = None) -> str:
     if fmt == "json":
         return json.dumps(data, indent=1) + "\n"
     if fmt == "html":
         from .report.html import render_html
 
-        return render_html(data, top=top)
+        return render_html(data, top=top, origin=origin, saved_file=saved_file)
     if fmt == "sdf":
         from .report.sdf import render_sdf
 
@@ -281,7 +292,7 @@ def report(result_file, fmt, top, output):
         for key, default in (("complete", False), ("elapsed_s", 0.0), ("candidates_generated", 0),
                              ("peaks", []), ("constraint_log", []), ("warnings", []), ("caution", "")):
             data.setdefault(key, default)
-    _write(_render(data, fmt, top), output)
+    _write(_render(data, fmt, top, origin="file", saved_file=result_file), output)
 
 
 def _progress_printer():
@@ -432,7 +443,11 @@ def check(smiles, peaks, formula, solvent, time_limit, alternatives, no_search, 
 @click.option("--html", is_flag=True, help="Also write an HTML report per sample.")
 @click.option("--cluster", default=None, metavar="ADDRESS",
               help="Dask scheduler address (tcp://host:8786); needs the extra elucidate[cluster].")
-def batch(samples, output, workers, time_limit, top, force, html, cluster):
+@click.option("--analyst", default=None, metavar="NAME",
+              help="Analyst's name for every report's sign-off block (the sample ID is the CSV id).")
+@click.option("--reviewer", default=None, metavar="NAME",
+              help="Reviewer's name for every report's sign-off block.")
+def batch(samples, output, workers, time_limit, top, force, html, cluster, analyst, reviewer):
     """Solve or check many samples listed in a CSV sheet.
 
     Header: id,formula,peaks and optionally expected,solvent.  'peaks' is a
@@ -455,7 +470,8 @@ def batch(samples, output, workers, time_limit, top, force, html, cluster):
                        err=True, nl=False)
     try:
         report = run_batch(samples, output, workers=workers, force=force, cluster=cluster,
-                           options=BatchOptions(time_limit=time_limit, top=top, html=html), progress=bar)
+                           options=BatchOptions(time_limit=time_limit, top=top, html=html, analyst=analyst,
+                                                reviewer=reviewer), progress=bar)
     except (KeyboardInterrupt, click.Abort):
         raise InputError("batch interrupted; finished samples are kept in the output folder; run the "
                          "same command again to resume") from None

@@ -19,7 +19,8 @@ BUTANONE = "209.3 C, 36.9 CH2, 29.4 CH3, 7.9 CH3"
 
 
 def _strip(d):
-    return {k: v for k, v in d.items() if k not in ("elapsed_s", "settings", "search")}
+    # run: the time of the run differs between two runs
+    return {k: v for k, v in d.items() if k not in ("elapsed_s", "settings", "search", "run")}
 
 
 def test_solve_same_as_cli():
@@ -73,3 +74,23 @@ def test_solve_options_reach_settings():
     assert r.settings.require == ("[CX3](=O)[OX2]",) and r.settings.max_rings == 0
     assert r.settings.scaffold == "C=O"
     assert elucidate.to_dict(r)["settings"]["scaffold"] == "C=O"
+
+
+def test_to_dict_records_sample_names_time_and_spectrum():
+    from datetime import datetime, timezone
+    from pathlib import Path
+
+    # scenarios/kestrel-coatings-jcamp: synthetic 13C spectrum of 4-methylpentan-2-one (make_spectra.py)
+    jdx = Path(__file__).resolve().parents[1] / "scenarios" / "kestrel-coatings-jcamp" / "drum-rinse-KC-2211_c13.jdx"
+    start = datetime(2026, 1, 15, 8, 30, tzinfo=timezone.utc)
+    result = elucidate.solve("C6H12O", str(jdx), solvent="CDCl3", time_limit=20, top=3)
+    a = elucidate.to_dict(result, sample_id="KC-2211", analyst="R. Okafor", run_at=start, spectrum=jdx)
+    b = elucidate.to_dict(result, sample_id="KC-2211", analyst="R. Okafor", run_at=start, spectrum=str(jdx))
+    assert a == b  # deterministic once the time is given
+    assert a["run"]["timestamp_utc"] == "2026-01-15T08:30:00Z" and a["run"]["sample_id"] == "KC-2211"
+    assert a["spectrum_trace"]["points"] == 32768 and a["observe_mhz"] == pytest.approx(100.6)
+    assert "spectrum_trace" not in elucidate.to_dict(result)
+    with pytest.raises(elucidate.InputError, match="timezone"):
+        elucidate.to_dict(result, run_at=datetime(2026, 1, 15))
+    with pytest.raises(elucidate.InputError, match="solve results only"):
+        elucidate.to_dict(elucidate.check("CCC(C)=O", BUTANONE, search=False), sample_id="X")

@@ -42,7 +42,7 @@ def _summary(folder):
 
 def _science(doc):
     """The parts of a result that must not depend on where it ran."""
-    drop = {"elapsed_s", "sample", "search"}
+    drop = {"elapsed_s", "sample", "search", "run"}
     return {k: v for k, v in doc.items() if k not in drop}
 
 
@@ -164,6 +164,25 @@ def test_html_reports_written_when_asked(sheet, tmp_path):
     pages = sorted(p.stem for p in out.glob("*.html"))
     assert pages == ["QC-1", "QC-2", "QC-4", "QC-5"]
     assert "hypothes" in (out / "QC-2.html").read_text().lower()
+    footer = (out / "QC-2.html").read_text().split("<footer>")[1]
+    assert "Re-rendered" in footer and "QC-2.json" in footer  # said truthfully: made from the saved file
+
+
+def test_sample_id_and_sign_off_names_reach_every_report(sheet, tmp_path):
+    out = tmp_path / "out"
+    options = BatchOptions(time_limit=5.0, top=5, html=True, analyst="  R. Okafor ")
+    run_batch(sheet, out, workers=1, options=options)
+    for sid in ("QC-1", "QC-2", "QC-4", "QC-5"):  # solved and checked samples alike
+        run = json.loads((out / f"{sid}.json").read_text())["run"]
+        assert run["sample_id"] == sid and run["analyst"] == "R. Okafor" and run["reviewer"] is None
+        page = (out / f"{sid}.html").read_text()
+        assert f"<dt>Sample ID</dt><dd>{sid}</dd>" in page and '<td class="line">R. Okafor</td>' in page
+        assert "directly from this run" in page.split("<footer>")[1]
+    # the names do not change results: a second batch with a reviewer reuses them
+    again = run_batch(sheet, out, workers=1, options=BatchOptions(time_limit=5.0, top=5, reviewer="J. Lindqvist"))
+    assert again.skipped == 4
+    with pytest.raises(InputError, match="one line"):
+        BatchOptions(analyst="A\nB")
 
 
 def test_interrupted_parallel_batch_resumes(sheet, tmp_path):

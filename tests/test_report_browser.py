@@ -1,9 +1,11 @@
 """The HTML report in a real headless browser (Debian's ``chromium``).
 
-Checks (issue 7): the page loads with no console messages, every SVG
-(structure and stick spectrum of every candidate) is laid out with a
-non-empty drawing, and a screenshot is written to the test's temporary
-folder.  Console messages are read from Chromium's own log
+Checks (issues 7 and 17): the page loads with no console messages, every
+SVG (the small structure of every row of the ranked table, the numbered
+structure and stick spectrum of every candidate, the measured spectrum of
+a JCAMP-DX run) is laid out with a non-empty drawing, the sign-off lines
+are laid out as lines to write on, and a screenshot is written to the
+test's temporary folder.  Console messages are read from Chromium's own log
 (``--enable-logging=stderr``); a deliberately broken page checks that this
 detection works.  Skipped, with the reason, when chromium is not installed.
 """
@@ -14,13 +16,20 @@ import shutil
 import struct
 import subprocess
 import zlib
+from datetime import datetime, timezone
 from pathlib import Path
 
 import pytest
+from click.testing import CliRunner
 
+from elucidate.cli import main
 from elucidate.pipeline import solve
 from elucidate.report.html import render_html
+from elucidate.report.runinfo import RunInfo
 from elucidate.report.serialize import result_to_dict
+
+ROOT = Path(__file__).resolve().parents[1]
+KESTREL = ROOT / "scenarios" / "kestrel-coatings-jcamp"
 
 CHROMIUM = shutil.which("chromium") or ("/usr/bin/chromium" if Path("/usr/bin/chromium").exists() else None)
 pytestmark = pytest.mark.skipif(
@@ -42,7 +51,13 @@ window.addEventListener("load", function () {
     out.push({cls: svg.getAttribute("class"), w: r.width, h: r.height, bw: b.width, bh: b.height,
               shapes: svg.querySelectorAll("path, line, rect, text").length});
   });
+  var lines = [];
+  document.querySelectorAll("table.signoff td.line").forEach(function (td) {
+    var r = td.getBoundingClientRect(), st = getComputedStyle(td);
+    lines.push({w: r.width, h: r.height, border: parseFloat(st.borderBottomWidth)});
+  });
   document.body.setAttribute("data-svg-check", JSON.stringify(out));
+  document.body.setAttribute("data-signoff-check", JSON.stringify(lines));
 });
 </script>"""
 
@@ -76,7 +91,8 @@ def _png_ink(path: Path) -> float:
 def report(tmp_path_factory):
     tmp = tmp_path_factory.mktemp("browser")
     # ethyl acetate, CDCl3 (Fulmer et al., Organometallics 2010, 29, 2176; from memory)
-    data = result_to_dict(solve("C4H8O2", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3"))
+    data = result_to_dict(solve("C4H8O2", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3"),
+                          run=RunInfo(datetime(2026, 1, 15, 8, 30, tzinfo=timezone.utc), sample_id="QC-101"))
     data["peaks_provenance"] = ["typed in (test)"]
     page = tmp / "report.html"
     page.write_text(render_html(data), encoding="utf-8")
@@ -115,7 +131,33 @@ def check_report(tmp_path_factory):
     return tmp, page, {"candidates": [data]}
 
 
-@pytest.mark.parametrize("which", ["report", "check_report"])
+@pytest.fixture(scope="module")
+def jcamp_report(tmp_path_factory):
+    # scenarios/kestrel-coatings-jcamp (invented): JCAMP-DX files -> solve -> JSON -> report
+    tmp = tmp_path_factory.mktemp("browser-jcamp")
+    meta = json.loads((KESTREL / "scenario.json").read_text())
+    out = tmp / "result.json"
+    res = CliRunner().invoke(main, [
+        "solve", "-f", meta["formula"], "-p", str(KESTREL / meta["peaks"]), "--dept135",
+        str(KESTREL / meta["dept135"]), "--dept90", str(KESTREL / meta["dept90"]), "--solvent", meta["solvent"],
+        "--sample-id", "KC-2211", "--analyst", "R. Okafor (invented)", "--format", "json", "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    page = tmp / "report.html"
+    res = CliRunner().invoke(main, ["report", str(out), "-o", str(page)])
+    assert res.exit_code == 0, res.output
+    return tmp, page, json.loads(out.read_text())
+
+
+def test_jcamp_report_screenshot(jcamp_report):
+    tmp, page, _ = jcamp_report
+    shot = tmp / "report.png"
+    proc = _run(page, tmp, f"--screenshot={shot}", "--window-size=1100,1800", "--hide-scrollbars")
+    assert proc.returncode == 0, proc.stderr[-2000:]
+    assert _console(proc) == [], _console(proc)
+    assert _png_ink(shot) > 0.005, "the screenshot is blank"
+
+
+@pytest.mark.parametrize("which", ["report", "check_report", "jcamp_report"])
 def test_every_svg_renders(which, request):
     tmp, page, data = request.getfixturevalue(which)
     html = page.read_text(encoding="utf-8")
@@ -133,10 +175,20 @@ def test_every_svg_renders(which, request):
     n = len(data["candidates"])
     assert sum(1 for b in boxes if b["cls"] == "structure") == n
     assert sum(1 for b in boxes if b["cls"] == "sticks") == n
+    # ranked table of a solve result: one small structure per row (a check page has no table)
+    assert sum(1 for b in boxes if b["cls"] == "thumb") == (0 if which == "check_report" else n)
+    assert sum(1 for b in boxes if b["cls"] == "trace") == (1 if "spectrum_trace" in data else 0)
+    assert (which == "jcamp_report") == ("spectrum_trace" in data)
     for b in boxes:
         assert b["w"] > 100 and b["h"] > 100, b
         assert b["bw"] > 20 and b["bh"] > 20, b
         assert b["shapes"] >= 5, b
+    # sign-off: name, signature and date lines for the analyst and the reviewer, drawn and wide enough
+    m = re.search(r'data-signoff-check="([^"]*)"', proc.stdout)
+    cells = json.loads(m.group(1).replace("&quot;", '"').replace("&amp;", "&"))
+    assert len(cells) == 6
+    for c in cells:
+        assert c["w"] > 100 and c["h"] > 20 and c["border"] >= 1, c
 
 
 def test_prints_to_pdf_with_a_page_per_candidate(report):

@@ -6,8 +6,11 @@ shifts from memory of standard 13C tables, listed in its make_spectra.py)
 -> ``elucidate solve`` -> JSON -> ``elucidate report`` -> HTML/SDF/text.
 """
 
+import importlib.metadata
 import importlib.util
 import json
+import re
+from datetime import datetime, timezone
 from pathlib import Path
 
 import pytest
@@ -40,9 +43,14 @@ def solved(tmp_path_factory):
     args = ["solve", "--formula", META["formula"], "--peaks", str(SCENARIO / META["peaks"]),
             "--dept135", str(SCENARIO / META["dept135"]), "--dept90", str(SCENARIO / META["dept90"]),
             "--solvent", META["solvent"], "--format", "json", "--output", str(out), "--top", "5"]
+    before = datetime.now(timezone.utc).replace(microsecond=0)
     result = CliRunner().invoke(main, args)
+    after = datetime.now(timezone.utc)
     assert result.exit_code == 0, result.output
-    return tmp, out, json.loads(out.read_text())
+    data = json.loads(out.read_text())
+    stamp = datetime.strptime(data["run"]["timestamp_utc"], "%Y-%m-%dT%H:%M:%SZ").replace(tzinfo=timezone.utc)
+    assert before <= stamp <= after  # taken during this run, in UTC
+    return tmp, out, data
 
 
 def test_committed_spectra_are_what_the_script_writes(tmp_path):
@@ -114,6 +122,75 @@ def test_report_sdf_and_text(solved, tmp_path):
     text = CliRunner().invoke(main, ["report", str(out), "--format", "text"])
     assert text.exit_code == 0
     assert data["candidates"][0]["smiles"] in text.stdout and "hypotheses" in text.stdout
+
+
+def test_json_carries_versions_and_the_measured_spectrum(solved):
+    _, _, data = solved
+    run = data["run"]
+    assert run["elucidate_version"] == importlib.metadata.version("elucidate")  # the installed package
+    assert re.fullmatch(r"\d{4}-\d{2}-\d{2}\+[0-9a-f]{8}", run["shift_table_version"])
+    assert run["sample_id"] is None and run["analyst"] is None and run["reviewer"] is None
+    trace = data["spectrum_trace"]
+    assert trace["source"] == META["peaks"] and trace["points"] == 32768  # the file's ##NPOINTS
+    assert 1000 < len(trace["ppm"]) == len(trace["intensity"]) <= 2000
+
+
+def test_report_redraws_the_spectrum_from_the_saved_json(solved, tmp_path):
+    _, out, data = solved
+    # only the JSON travels: a copy in another folder, away from the spectrum files
+    copy = tmp_path / "filed.json"
+    copy.write_text(out.read_text())
+    page = CliRunner().invoke(main, ["report", str(copy)]).stdout
+    svg = re.search(r'<svg[^>]*class="trace".*?</svg>', page, flags=re.S).group(0)
+    points = re.search(r'<polyline class="spectrum" points="([^"]*)"', svg).group(1).split()
+    assert len(points) == len(data["spectrum_trace"]["ppm"])
+    marks = re.findall(r'class="mark" data-ppm="([^"]+)"', svg)
+    assert [float(m) for m in marks] == [p["shift"] for p in data["peaks"]]  # one mark per line used
+    footer = page[page.index("<footer>"):]
+    assert "Re-rendered" in footer and "<code>filed.json</code>" in footer
+    assert data["run"]["timestamp_utc"] in footer
+    # a result without the trace (typed lines, or an older file) has no spectrum picture
+    copy.write_text(json.dumps({k: v for k, v in data.items() if k != "spectrum_trace"}))
+    assert 'class="trace"' not in CliRunner().invoke(main, ["report", str(copy)]).stdout
+
+
+def test_solve_html_says_it_was_rendered_directly():
+    # ethyl acetate, CDCl3 (Fulmer et al., Organometallics 2010, 29, 2176; from memory)
+    res = CliRunner().invoke(main, ["solve", "-f", "C4H8O2", "-p", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3",
+                                    "--format", "html", "--top", "2"])
+    assert res.exit_code == 0, res.output
+    footer = res.stdout[res.stdout.index("<footer>"):]
+    assert "directly from this run" in footer and "saved" not in footer
+
+
+def test_sample_id_and_sign_off_names(tmp_path):
+    # ethyl acetate, CDCl3 (Fulmer et al., Organometallics 2010, 29, 2176; from memory)
+    base = ["solve", "-f", "C4H8O2", "-p", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3", "--top", "2",
+            "--sample-id", "KC-2211/B", "--analyst", "R. Okafor", "--reviewer", "J. Lindqvist"]
+    out = tmp_path / "r.json"
+    res = CliRunner().invoke(main, base + ["--format", "json", "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    data = json.loads(out.read_text())
+    assert {k: data["run"][k] for k in ("sample_id", "analyst", "reviewer")} == {
+        "sample_id": "KC-2211/B", "analyst": "R. Okafor", "reviewer": "J. Lindqvist"}
+    assert "spectrum_trace" not in data  # typed lines: no spectrum to draw
+    html = CliRunner().invoke(main, ["report", str(out)]).stdout
+    header = html[:html.index("<h2>Ranked candidates</h2>")]
+    assert "<dd>KC-2211/B</dd>" in header and data["run"]["timestamp_utc"] in header
+    assert '<td class="line">R. Okafor</td>' in header and '<td class="line">J. Lindqvist</td>' in header
+    text = CliRunner().invoke(main, base + ["--format", "text"]).stdout
+    first = text.splitlines()[0]
+    assert first.startswith("sample KC-2211/B  run 20") and "(UTC)" in first
+    assert f"elucidate {importlib.metadata.version('elucidate')}" in first
+    assert "analyst R. Okafor  reviewer J. Lindqvist" in text
+
+
+def test_bad_analyst_name_is_one_error_line():
+    res = CliRunner().invoke(main, ["solve", "-f", "C4H8O2", "-p", "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3",
+                                    "--analyst", "R. Okafor\nJ. Lindqvist"])
+    assert res.exit_code == 2
+    assert res.stderr.startswith("error: analyst name") and "one line" in res.stderr
+    assert res.stderr.count("\n") == 1 and "Traceback" not in res.output
 
 
 def test_solve_writes_html_and_sdf_to_stdout():

@@ -41,7 +41,9 @@ __all__ = [
     "count_bucket",
     "ShiftModel",
     "default_table_path",
+    "default_table_version",
     "load_default_model",
+    "table_version",
 ]
 
 #: Spheres whose codes carry a fallback increment of their own.
@@ -242,3 +244,36 @@ def load_default_model() -> ShiftModel:
             )
         _DEFAULT = ShiftModel.load(path)
     return _DEFAULT
+
+
+def table_version(meta: dict) -> str:
+    """Short identifier of a shift table: build date + training-data checksum prefix.
+
+    Parameters
+    ----------
+    meta : dict
+        The table's provenance header (``ShiftModel.meta``), with
+        ``build_date`` and ``data_sha256``.
+
+    Returns
+    -------
+    str
+        E.g. ``"2026-12-02+dfab72eb"`` (the date the table was built and the
+        first 8 hex digits of the SHA-256 of its training data); ``"unknown"``
+        parts when the header lacks them.
+    """
+    date = str(meta.get("build_date") or "unknown")
+    sha = str(meta.get("data_sha256") or "unknown")[:8]
+    return f"{date}+{sha}"
+
+
+def default_table_version() -> str:
+    """:func:`table_version` of the shipped table (reads only its header when
+    the table is not loaded yet)."""
+    if _DEFAULT is not None:
+        return table_version(_DEFAULT.meta)
+    path = default_table_path()
+    if not path.exists():
+        return "missing"
+    with np.load(path, allow_pickle=False) as z:
+        return table_version(json.loads(str(z["header"])))

@@ -14,14 +14,23 @@ scripts).  A ``@media print`` block keeps each candidate on its own page.
 
 Contents
 --------
+* a header to file and sign: sample ID, date and time of the run (UTC),
+  elucidate and shift-table versions (the result's ``run`` block), and
+  sign-off lines (name, signature, date) for the analyst and the reviewer;
 * the cautions (results are hypotheses) at the top and the bottom;
-* inputs echoed: formula, DBE, solvent, observed lines, peak-picking
-  settings when the lines came from a spectrum, search settings;
+* the ranked table, a small structure drawing per row, and one line each on
+  the score, the probability and the chance that the answer is not listed;
+* inputs echoed: formula, DBE, solvent, the measured spectrum with the lines
+  used marked (when the result carries a ``spectrum_trace``), observed
+  lines, peak-picking settings when the lines came from a spectrum, search
+  settings in plain words;
 * the completeness statement and the constraint log (counts before/after);
 * for each candidate: a 2D depiction with carbon numbers, a stick spectrum
   (observed lines up, predicted lines down, a connector for each assigned
   pair, chemical shift decreasing from left to right as usual in NMR), the
-  assignment table and the predicted shift of every carbon.
+  assignment table and the predicted shift of every carbon;
+* a footer saying whether the page was rendered straight from the run or
+  re-rendered from a saved result file.
 
 Atom numbers are 1-based positions in the candidate SMILES as written (the
 JSON's 0-based ``atoms`` plus one), which is also the atom numbering of the
@@ -43,7 +52,7 @@ from typing import Any
 from ..errors import InputError
 from .text import unlisted_sentence
 
-__all__ = ["render_html", "check_result_data", "depiction_svg", "stick_spectrum_svg"]
+__all__ = ["render_html", "check_result_data", "depiction_svg", "stick_spectrum_svg", "trace_svg"]
 
 OBSERVED_COLOUR = "#0072B2"
 PREDICTED_COLOUR = "#D55E00"
@@ -95,12 +104,17 @@ def check_result_data(data: Any) -> dict:
             raise InputError(f"result candidate {i} has no 'smiles' text; {hint}")
         if not isinstance(cand.get("assignment", []), list):
             raise InputError(f"result candidate {i}: 'assignment' must be a list; {hint}")
+    if data.get("spectrum_trace") is not None:
+        _trace_points(data["spectrum_trace"])
+    if data.get("run") is not None and not isinstance(data["run"], dict):
+        raise InputError(f"result 'run' must be an object (time, versions, sample ID); {hint}")
     return data
 
 
 # ----------------------------------------------------------------- depiction
-def depiction_svg(smiles: str, *, width: int = 340, height: int = 260) -> str:
-    """2D depiction of ``smiles`` as an inline SVG with carbon numbers.
+def depiction_svg(smiles: str, *, width: int = 340, height: int = 260, numbered: bool = True,
+                  css_class: str = "structure") -> str:
+    """2D depiction of ``smiles`` as an inline SVG, with carbon numbers by default.
 
     Coordinates from RDKit's ``Compute2DCoords`` (deterministic); each carbon
     carries its 1-based position in the SMILES as an atom note.
@@ -110,6 +124,10 @@ def depiction_svg(smiles: str, *, width: int = 340, height: int = 260) -> str:
     smiles : str
     width, height : int
         Size in pixels.
+    numbered : bool
+        Write the carbon numbers (off for the small pictures of the ranked table).
+    css_class : str
+        Class of the ``<svg>`` element (``structure``; ``thumb`` in the ranked table).
 
     Returns
     -------
@@ -128,9 +146,10 @@ def depiction_svg(smiles: str, *, width: int = 340, height: int = 260) -> str:
     mol = Chem.MolFromSmiles(smiles) if isinstance(smiles, str) else None
     if mol is None:
         raise InputError(f"cannot read candidate SMILES {smiles!r}; the result file may be damaged")
-    for atom in mol.GetAtoms():
-        if atom.GetSymbol() == "C":
-            atom.SetProp("atomNote", str(atom.GetIdx() + 1))
+    if numbered:
+        for atom in mol.GetAtoms():
+            if atom.GetSymbol() == "C":
+                atom.SetProp("atomNote", str(atom.GetIdx() + 1))
     rdDepictor.Compute2DCoords(mol)
     drawer = rdMolDraw2D.MolDraw2DSVG(width, height)
     opts = drawer.drawOptions()
@@ -142,10 +161,11 @@ def depiction_svg(smiles: str, *, width: int = 340, height: int = 260) -> str:
     svg = drawer.GetDrawingText()
     svg = re.sub(r"<\?xml[^>]*\?>\s*", "", svg)
     # Accessible name for screen readers; the class lets the print CSS size it.
+    label = f"2D structure of {smiles}" + (" with carbon numbers" if numbered else "")
     svg = svg.replace(
         "<svg ",
-        f"<svg role=\"img\" aria-label=\"2D structure of {html.escape(smiles, quote=True)} "
-        "with carbon numbers\" class=\"structure\" ",
+        f"<svg role=\"img\" aria-label=\"{html.escape(label, quote=True)}\" "
+        f"class=\"{html.escape(css_class, quote=True)}\" ",
         1,
     )
     return svg
@@ -295,6 +315,121 @@ def stick_spectrum_svg(
     return "".join(parts)
 
 
+def _trace_points(trace: Any) -> tuple[list[float], list[float]]:
+    """Checked ``(ppm, intensity)`` lists of a result's ``spectrum_trace``."""
+    hint = "the result file may be damaged; re-run the solve or drop the 'spectrum_trace' key"
+    if not isinstance(trace, dict):
+        raise InputError(f"result 'spectrum_trace' must be an object; {hint}")
+    ppm, inten = trace.get("ppm"), trace.get("intensity")
+    if not (isinstance(ppm, list) and isinstance(inten, list) and len(ppm) == len(inten) >= 2):
+        raise InputError(f"result 'spectrum_trace' needs 'ppm' and 'intensity' lists of equal length; {hint}")
+    try:
+        xs = [float(v) for v in ppm]
+        ys = [float(v) for v in inten]
+    except (TypeError, ValueError):
+        raise InputError(f"result 'spectrum_trace' holds values that are not numbers; {hint}") from None
+    if not all(math.isfinite(v) for v in xs + ys) or max(xs) <= min(xs):
+        raise InputError(f"result 'spectrum_trace' needs finite numbers spanning a shift range; {hint}")
+    return xs, ys
+
+
+def trace_svg(trace: dict, peaks: list[dict], *, width: int = 640, height: int = 230, title: str = "") -> str:
+    """The measured spectrum (decimated trace) with the lines used marked, as an inline SVG.
+
+    The shift axis decreases from left to right, as NMR spectra are drawn
+    (common practice, no source).  Each observed line of ``peaks`` gets a
+    small triangle above the tallest point of the trace near it and its line
+    number; peaks of the trace without a mark were not used (solvent lines,
+    noise below the picking threshold).
+
+    Parameters
+    ----------
+    trace : dict
+        A result's ``spectrum_trace`` (``ppm`` and ``intensity`` lists).
+    peaks : list of dict
+        Observed lines (``shift``).
+    width, height : int
+    title : str
+        Accessible title.
+
+    Returns
+    -------
+    str
+        An ``<svg>`` element.
+
+    Raises
+    ------
+    InputError
+        When the trace is damaged.
+    """
+    xs, ys = _trace_points(trace)
+    left_ppm, right_ppm = max(xs), min(xs)
+    m_left, m_right, top, bottom = 14.0, 14.0, 36.0, height - 40.0
+    plot_w = width - m_left - m_right
+    lo, hi = min(0.0, min(ys)), max(ys)
+    if hi <= lo:
+        hi = lo + 1.0
+
+    def x_of(ppm: float) -> float:
+        return m_left + (left_ppm - ppm) / (left_ppm - right_ppm) * plot_w
+
+    def y_of(v: float) -> float:
+        return bottom - (v - lo) / (hi - lo) * (bottom - top)
+
+    pts = " ".join(f"{x_of(x):.1f},{y_of(y):.1f}" for x, y in zip(xs, ys))
+    parts = [
+        f'<svg xmlns="http://www.w3.org/2000/svg" class="trace" role="img" width="{width}" '
+        f'height="{height}" viewBox="0 0 {width} {height}" data-left-ppm="{left_ppm:g}" '
+        f'data-right-ppm="{right_ppm:g}" data-points="{len(xs)}">',
+        f"<title>{html.escape(title or 'measured 13C spectrum with the lines used marked')}</title>",
+        f'<polyline class="spectrum" points="{pts}" fill="none" stroke="#222" stroke-width="0.8" '
+        'stroke-linejoin="round"/>',
+    ]
+    # marks: above the tallest trace point within half a ppm-step of each line
+    spacing = (left_ppm - right_ppm) / max(len(xs) - 1, 1)
+    window = max(0.15, 3 * spacing)
+    marks = []
+    for i, p in enumerate(peaks):
+        if p.get("shift") is None:
+            continue
+        shift = float(p["shift"])
+        near = [y for x, y in zip(xs, ys) if abs(x - shift) <= window]
+        marks.append((i, shift, max(near) if near else 0.0))
+    last_x = [-1e9, -1e9, -1e9]
+    for i, shift, peak_y in sorted(marks, key=lambda m: (-m[1], m[0])):
+        x = x_of(shift)
+        k = next((k for k in range(3) if x - last_x[k] >= 14), min(range(3), key=lambda k: last_x[k]))
+        last_x[k] = x
+        y = max(top - 4.0, y_of(max(peak_y, lo)) - 4.0)
+        label_y = max(10.0, y - 9.0 - 10 * k)
+        parts.append(
+            f'<path class="mark" data-ppm="{shift:g}" d="M{x:.1f},{y:.1f} l-3.5,-6 h7 z" '
+            f'fill="{OBSERVED_COLOUR}"><title>line {i + 1}: {shift:.2f} ppm</title></path>'
+            f'<text class="lab" x="{x:.1f}" y="{label_y:.1f}" text-anchor="middle" '
+            f'fill="{OBSERVED_COLOUR}">{i + 1}</text>'
+        )
+    axis_y = bottom + 6.0
+    parts.append(
+        f'<line x1="{m_left}" y1="{axis_y}" x2="{width - m_right}" y2="{axis_y}" stroke="#222" '
+        'stroke-width="1"/>'
+    )
+    step = _nice_step((left_ppm - right_ppm) * 1.1)
+    tick = math.floor(left_ppm / step) * step
+    while tick >= right_ppm - 1e-9:
+        x = x_of(tick)
+        parts.append(
+            f'<line x1="{x:.1f}" y1="{axis_y}" x2="{x:.1f}" y2="{axis_y + 4}" stroke="#222"/>'
+            f'<text class="tick" x="{x:.1f}" y="{axis_y + 16}" text-anchor="middle">{tick:g}</text>'
+        )
+        tick -= step
+    parts.append(
+        f'<text class="tick" x="{width - m_right}" y="{axis_y + 32}" text-anchor="end">'
+        "\u03b4 13C / ppm</text>"
+    )
+    parts.append("</svg>")
+    return "".join(parts)
+
+
 # ----------------------------------------------------------------- page
 _CSS = """
 :root { --ink:#1a1a1a; --muted:#555; --rule:#c8c8c8; --obs:%(obs)s; --pred:%(pred)s; --warn:#8a4b00; }
@@ -323,8 +458,22 @@ code, .smiles { font-family: "DejaVu Sans Mono", Consolas, monospace; overflow-w
 .figs { display: flex; flex-wrap: wrap; gap: 1rem; align-items: flex-start; }
 .figs figure { margin: 0; }
 figcaption { font-size: .85rem; color: var(--muted); }
-svg.sticks text.lab { font-size: 10px; }
-svg.sticks text.tick { font-size: 11px; fill: #222; }
+svg.sticks text.lab, svg.trace text.lab { font-size: 10px; }
+svg.sticks text.tick, svg.trace text.tick { font-size: 11px; fill: #222; }
+svg.thumb { display: block; }
+.ident { display: flex; flex-wrap: wrap; gap: .5rem 2.5rem; align-items: flex-start; }
+.ident dl.facts { margin: 0; }
+table.signoff { margin: 0; border-collapse: separate; border-spacing: .9rem 0; margin-left: -.9rem; }
+table.signoff th { background: none; border-bottom: none; padding-left: 0; }
+table.signoff caption { font-weight: 600; color: var(--ink); font-size: .92rem; padding-left: .9rem; }
+table.signoff th[scope="row"] { vertical-align: bottom; }
+table.signoff td.line { border-bottom: 1px solid var(--ink); height: 2.6em; min-width: 10rem;
+                        vertical-align: bottom; padding: 0 .2rem .1rem; }
+figure.spectrum { margin: 0 0 1rem; }
+svg.trace { max-width: 100%%; height: auto; }
+table.ranked td.pic { padding: 0 .3rem; }
+table.ranked td .smiles { white-space: normal; word-break: break-all; }
+ul.key { font-size: .85rem; color: var(--muted); margin: -.5rem 0 1rem; padding-left: 1.2rem; }
 ul.warn li { color: var(--warn); }
 .legend span { display: inline-block; margin-right: 1rem; }
 .key-obs { color: var(--obs); font-weight: 600; }
@@ -334,7 +483,9 @@ footer { margin-top: 2rem; font-size: .85rem; color: var(--muted); }
   body { max-width: none; padding: 0; font-size: 10pt; }
   @page { size: A4; margin: 15mm; }
   .cand { break-before: page; border-top: none; }
-  table, figure, .caution { break-inside: avoid; }
+  table, figure, .caution, .ident { break-inside: avoid; }
+  table.ranked { break-inside: auto; }
+  table.ranked tr { break-inside: avoid; }
   h2, h3 { break-after: avoid; }
   * { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
 }
@@ -356,8 +507,9 @@ def _f(x, nd: int = 2) -> str:
         return _e(x)
 
 
-def _table(head: list[str], rows: list[list[str]], num: set[int] = frozenset(), caption: str = "") -> str:
-    out = ["<table>"]
+def _table(head: list[str], rows: list[list[str]], num: set[int] = frozenset(), caption: str = "",
+           cls: str = "", cell_cls: dict[int, str] | None = None) -> str:
+    out = [f'<table class="{cls}">' if cls else "<table>"]
     if caption:
         out.append(f"<caption>{caption}</caption>")
     out.append(
@@ -365,9 +517,14 @@ def _table(head: list[str], rows: list[list[str]], num: set[int] = frozenset(), 
         + "".join(f'<th scope="col"{" class=num" if i in num else ""}>{h}</th>' for i, h in enumerate(head))
         + "</tr></thead><tbody>"
     )
+    cell_cls = cell_cls or {}
+
+    def attr(i: int) -> str:
+        names = " ".join(n for n in ("num" if i in num else "", cell_cls.get(i, "")) if n)
+        return f' class="{names}"' if " " in names else (f" class={names}" if names else "")
+
     for r in rows:
-        out.append("<tr>" + "".join(f'<td{" class=num" if i in num else ""}>{c}</td>'
-                                    for i, c in enumerate(r)) + "</tr>")
+        out.append("<tr>" + "".join(f"<td{attr(i)}>{c}</td>" for i, c in enumerate(r)) + "</tr>")
     out.append("</tbody></table>")
     return "".join(out)
 
@@ -399,6 +556,19 @@ def _inputs(data: dict) -> str:
         facts.append(("13C observe frequency", f"{float(data['observe_mhz']):g} MHz"))
     out = ['<dl class="facts">'] + [f"<dt>{k}</dt><dd>{v}</dd>" for k, v in facts] + ["</dl>"]
     peaks = data.get("peaks") or []
+    trace = data.get("spectrum_trace")
+    if trace is not None:
+        shown, total = len(trace.get("ppm") or []), trace.get("points")
+        of = f" of {_e(f'{total:,}')}" if isinstance(total, int) and total > shown else ""
+        out.append(
+            '<figure class="spectrum">'
+            + trace_svg(trace, peaks, width=840, title="measured 13C spectrum with the lines used marked")
+            + f"<figcaption>Measured 13C spectrum <code>{_e(trace.get('source') or '')}</code> "
+            f"({_e(f'{shown:,}')}{of} points: the lowest and highest point of each interval, so every line "
+            'keeps its height). <span class="key-obs">&#9660; numbered marks</span>: the lines used for the '
+            "search; peaks without a mark were not used (solvent lines are listed under warnings).</figcaption>"
+            "</figure>"
+        )
     if peaks:
         rows = [[str(i + 1), _f(p.get("shift")), _e(p.get("mult") or "?"), _e(p.get("count") or "")]
                 for i, p in enumerate(peaks)]
@@ -410,28 +580,66 @@ def _inputs(data: dict) -> str:
         out += [f"<li>{_e(p)}</li>" for p in prov]
         out.append("</ul>")
     if s:
-        rows = []
-        for key in sorted(s):
-            val = s[key]
-            if key == "valences" and isinstance(val, dict):
-                val = " ".join(f"{el}{'/'.join(str(v) for v in vs)}" for el, vs in val.items())
-            elif isinstance(val, list):
-                val = ", ".join(str(v) for v in val) or "none"
-            elif isinstance(val, bool):
-                val = "yes" if val else "no"
-            elif val is None:
-                val = "no limit"
-            rows.append([f"<code>{_e(key)}</code>", _e(val)])
+        rows = [[_e(_setting_label(key)), _e(_setting_value(key, s[key]))] for key in _setting_order(s)]
         out.append(_table(["setting", "value"], rows, caption="Search settings and structural constraints"))
     return "".join(out)
+
+
+#: Plain-language names of the search settings (the JSON keeps the raw keys), in display order.
+SETTING_LABELS = {
+    "solvent": "Solvent whose lines were removed",
+    "time_limit": "Time limit of the search",
+    "top": "Candidates reported (max)",
+    "valences": "Allowed valences",
+    "charged_nitrogen": "Charge-separated N+/O\u2212 pairs built",
+    "allow_all": "Implausible motifs kept",
+    "require": "Required substructures (SMARTS)",
+    "forbid": "Forbidden substructures (SMARTS)",
+    "scaffold": "Required ring system (SMILES)",
+    "max_rings": "Rings (max)",
+    "min_ring_size": "Ring size (min)",
+    "max_ring_size": "Ring size (max)",
+    "symmetry_overlap": "Accidental overlaps allowed (max; carbon classes beyond the line count)",
+    "symmetry_split": "Split lines allowed (max; lines beyond the carbon classes)",
+}
+_NONE_TEXT = {"solvent": "none given", "scaffold": "none", "time_limit": "none"}
+
+
+def _setting_order(settings: dict) -> list[str]:
+    known = [k for k in SETTING_LABELS if k in settings]
+    return known + sorted(k for k in settings if k not in SETTING_LABELS)
+
+
+def _setting_label(key: str) -> str:
+    return SETTING_LABELS.get(key) or str(key).replace("_", " ").capitalize()
+
+
+def _setting_value(key: str, val) -> str:
+    if key == "valences" and isinstance(val, dict):
+        return ", ".join(f"{el} {'/'.join(str(v) for v in vs)}" for el, vs in val.items())
+    if isinstance(val, bool):
+        return "yes" if val else "no"
+    if isinstance(val, list):
+        return ", ".join(str(v) for v in val) or "none"
+    if val is None:
+        return _NONE_TEXT.get(key, "no limit")
+    if key == "time_limit" and isinstance(val, (int, float)):
+        return f"{val:g} s"
+    return str(val)
 
 
 def _search(data: dict) -> str:
     out = []
     complete = data.get("complete")
+    comp = data.get("completeness") if isinstance(data.get("completeness"), dict) else {}
     if complete is True:
         out.append('<p class="status-ok">The search was exhaustive under the stated constraints: every '
                    "constitution consistent with them was generated and ranked.</p>")
+    elif comp.get("status") == "complete up to cost" and comp.get("cost_bound") is not None:
+        out.append('<p class="status-ok">The search was exhaustive up to an approximate cost of '
+                   f"{_e(comp['cost_bound'])}: every structure not listed fits the lines worse than that by its "
+                   "carbon environments (the approximate cost adds how rare each atom environment is and the "
+                   "cheapest placement of the carbons under the lines).</p>")
     elif complete is False:
         out.append('<p class="status-cut">The search was cut short (time limit): structures may be missing '
                    "from this list.</p>")
@@ -456,17 +664,27 @@ def _search(data: dict) -> str:
     return "".join(out)
 
 
-def _summary(cands: list[dict]) -> str:
+def _summary(cands: list[dict], unlisted) -> str:
     rows = []
     for c in cands:
         rows.append([
             f'<a href="#cand-{_e(c.get("rank"))}">{_e(c.get("rank"))}</a>',
+            depiction_svg(c["smiles"], width=150, height=110, numbered=False, css_class="thumb"),
             f'<span class="smiles">{_e(c["smiles"])}</span>',
-            _f(c.get("probability"), 3), _f(c.get("mae_ppm")), _f(c.get("max_error_ppm")), _e(_notes(c)),
+            _f(c.get("probability"), 3), _f(c.get("score"), 2), _f(c.get("mae_ppm")), _f(c.get("max_error_ppm")),
+            _e(_notes(c)),
         ])
-    return _table(["rank", "SMILES", "probability", "MAE / ppm", "max / ppm", "notes"], rows, {0, 2, 3, 4},
-                  "Ranked candidates (probability of each being the answer; see the search section for the "
-                  "chance that the answer is not listed)")
+    table = _table(["rank", "structure", "SMILES", "probability", "score", "MAE / ppm", "max / ppm", "notes"],
+                   rows, {0, 3, 4, 5, 6}, "Ranked candidates, best first", cls="ranked", cell_cls={1: "pic"})
+    not_listed = (f"chance that the answer is none of these: <strong>{_f(unlisted, 2)}</strong>"
+                  if unlisted is not None else "chance that the answer is none of these: not recorded in this result")
+    key = ('<ul class="key">'
+           "<li><strong>Score</strong>: calibrated misfit of the predicted against the observed shifts plus a "
+           "rarity cost for unusual atom environments; lower is better.</li>"
+           "<li><strong>Probability</strong>: chance that this structure is the answer, given that the answer "
+           "is listed. <strong>MAE / max</strong>: mean and largest shift deviation.</li>"
+           f"<li><strong>Not listed</strong>: {not_listed} (see the search section).</li></ul>")
+    return table + key
 
 
 def _candidate(c: dict, peaks: list[dict]) -> str:
@@ -476,6 +694,8 @@ def _candidate(c: dict, peaks: list[dict]) -> str:
            f'<span class="smiles">{_e(c["smiles"])}</span></h3>']
     facts = [("probability", _f(c.get("probability"), 3)), ("score", _f(c.get("score"), 3)),
              ("MAE", _f(c.get("mae_ppm")) + " ppm"), ("max deviation", _f(c.get("max_error_ppm")) + " ppm")]
+    if c.get("prior_cost") is not None:
+        facts.insert(2, ("rarity cost", _f(c.get("prior_cost"), 2)))
     out.append("<p>" + " &middot; ".join(f"{k} <strong>{v}</strong>" for k, v in facts) + "</p>")
     notes = _notes(c)
     if notes:
@@ -502,6 +722,34 @@ def _candidate(c: dict, peaks: list[dict]) -> str:
     return "".join(out)
 
 
+def _identification(data: dict) -> str:
+    """Sample ID, date and time of the run, versions, and the sign-off block.
+
+    The sign-off lines (name, signature, date) are always there for the
+    analyst and the reviewer; names given at the run are printed in them.
+    """
+    run = data.get("run") if isinstance(data.get("run"), dict) else {}
+    missing = "not recorded in this result"
+    stamp = run.get("timestamp_utc")
+    facts = [
+        ("Sample ID", _e(run.get("sample_id")) if run.get("sample_id") else ("not given" if run else missing)),
+        ("Date and time of the run", f"{_e(stamp)} (UTC)" if stamp else missing),
+        ("Software", f"elucidate {_e(run['elucidate_version'])}" if run.get("elucidate_version") else missing),
+        ("Shift table", (f"{_e(run['shift_table_version'])} (build date + training-data checksum)"
+                         if run.get("shift_table_version") else missing)),
+    ]
+    dl = ('<dl class="facts">' + "".join(f"<dt>{k}</dt><dd>{v}</dd>" for k, v in facts) + "</dl>")
+    rows = []
+    for role, key in (("Analyst", "analyst"), ("Reviewer", "reviewer")):
+        name = run.get(key)
+        rows.append(f'<tr><th scope="row">{role}</th><td class="line">{_e(name) if name else "&nbsp;"}</td>'
+                    '<td class="line">&nbsp;</td><td class="line">&nbsp;</td></tr>')
+    signoff = ('<table class="signoff"><caption>Sign-off</caption><thead><tr><th scope="col">role</th>'
+               '<th scope="col">name</th><th scope="col">signature</th><th scope="col">date</th></tr></thead>'
+               "<tbody>" + "".join(rows) + "</tbody></table>")
+    return f'<section class="ident" aria-label="sample, run and sign-off">{dl}{signoff}</section>'
+
+
 def _sample(data: dict) -> str:
     """The ``sample`` block a batch run adds (id, row, status ...), if any."""
     sample = data.get("sample")
@@ -511,7 +759,7 @@ def _sample(data: dict) -> str:
             if k != "fingerprint" and v not in (None, "") and not isinstance(v, (dict, list))]
     if not rows:
         return ""
-    return ('<h2>Sample</h2><dl class="facts">'
+    return ('<h2>Batch sample</h2><dl class="facts">'
             + "".join(f"<dt>{_e(k)}</dt><dd>{_e(v)}</dd>" for k, v in rows) + "</dl>")
 
 
@@ -534,7 +782,7 @@ def _assignment_rows(assignment: list[dict], peaks: list[dict], unfilled=()) -> 
     return rows
 
 
-def _render_check(data: dict, title: str | None) -> str:
+def _render_check(data: dict, title: str | None, footer: str) -> str:
     """Page for a check result: one expected structure against the lines."""
     peaks = data.get("peaks") or []
     title = title or f"elucidate check report: {data['smiles']}"
@@ -544,6 +792,7 @@ def _render_check(data: dict, title: str | None) -> str:
         f"<h1>{_e(title)}</h1>",
         f'<p class="sub">Does the expected structure {_e(data["smiles"])} ({_e(data["formula"])}) explain '
         "the observed 13C lines? The verdict is a hypothesis, not an identification.</p>",
+        _identification(data),
         f'<div class="caution" role="note"><strong>Caution.</strong> {_e(data.get("caution") or _DEFAULT_CAUTION)}'
         "</div>",
         _sample(data),
@@ -592,7 +841,7 @@ def _render_check(data: dict, title: str | None) -> str:
         body.append(_table(["stage", "structures ranked", "complete", "seconds"], rows, {1, 3},
                            "Isomer search stages"))
     body.append("<h2>Inputs</h2>" + _inputs(data) + _search_warnings(data))
-    return _page(title, body)
+    return _page(title, body, footer)
 
 
 def _search_warnings(data: dict) -> str:
@@ -602,9 +851,33 @@ def _search_warnings(data: dict) -> str:
     return '<h3>Warnings</h3><ul class="warn">' + "".join(f"<li>{_e(w)}</li>" for w in warnings) + "</ul>"
 
 
-def _page(title: str, body: list[str]) -> str:
+_ORIGINS = ("run", "file")
+
+
+def _footer(data: dict, origin: str | None, saved_file: str | None) -> str:
+    """Says truthfully how this page was made: straight from a run, or re-rendered from a saved file."""
+    from pathlib import PurePath
+
     from .. import __version__
 
+    run = data.get("run") if isinstance(data.get("run"), dict) else {}
+    if origin == "run":
+        how = f"Rendered by elucidate {_e(__version__)} directly from this run's result"
+    elif origin == "file":
+        name = f" <code>{_e(PurePath(saved_file).name)}</code>" if saved_file else ""
+        how = (f"Re-rendered by elucidate {_e(__version__)} from the saved result file{name}, without "
+               "solving again")
+        if run.get("timestamp_utc") or run.get("elucidate_version"):
+            made = " ".join(x for x in (
+                f"with elucidate {_e(run['elucidate_version'])}" if run.get("elucidate_version") else "",
+                f"on {_e(run['timestamp_utc'])}" if run.get("timestamp_utc") else "") if x)
+            how += f" (the run was made {made})"
+    else:
+        how = f"Rendered by elucidate {_e(__version__)} from result data"
+    return f"<footer>{how}; structure pictures drawn with RDKit.</footer>"
+
+
+def _page(title: str, body: list[str], footer: str) -> str:
     body = body + [
         '<h2>Before acting on this report</h2><div class="caution" role="note"><ul>'
         "<li>These are hypotheses ranked by agreement between predicted and observed 13C shifts, "
@@ -616,8 +889,7 @@ def _page(title: str, body: list[str]) -> str:
         "<li>An incomplete search may miss the right structure; the probabilities are calibrated "
         "estimates from held-out training compounds, not guarantees, and the chance that the answer "
         "is not listed is stated with the search.</li></ul></div>",
-        f"<footer>Rendered by elucidate {_e(__version__)} from the saved result data; "
-        "structure pictures drawn with RDKit.</footer>",
+        footer,
     ]
     return (
         "<!DOCTYPE html>\n<html lang=\"en\"><head><meta charset=\"utf-8\">"
@@ -629,16 +901,17 @@ def _page(title: str, body: list[str]) -> str:
     )
 
 
-def render_html(data: dict, *, top: int | None = None, title: str | None = None) -> str:
+def render_html(data: dict, *, top: int | None = None, title: str | None = None, origin: str | None = None,
+                saved_file: str | None = None) -> str:
     """Render the plain-data result as one self-contained HTML page.
 
     Parameters
     ----------
     data : dict
         A serialised solve result (see :mod:`elucidate.report.serialize`);
-        optional keys are shown when present (``peaks_provenance``,
-        ``observe_mhz``, ``settings``, ``warnings``, a batch run's
-        ``sample`` block ...).  A check-workflow result (``"workflow":
+        optional keys are shown when present (``run``, ``peaks_provenance``,
+        ``observe_mhz``, ``spectrum_trace``, ``settings``, ``warnings``, a
+        batch run's ``sample`` block ...).  A check-workflow result (``"workflow":
         "check"``) gets a page of its own: verdict, reasons, the expected
         structure with its stick spectrum and assignment, better-fitting
         isomers and the search stages.
@@ -646,6 +919,13 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None)
         Show only the first ``top`` candidates (default: all in ``data``).
     title : str, optional
         Page title (default names the formula).
+    origin : {"run", "file"}, optional
+        How the page is made, for its footer: ``"run"`` straight after the
+        run (``solve --format html``), ``"file"`` re-rendered from a saved
+        result (``elucidate report``; name it with ``saved_file``).  Without
+        it the footer only says the page was rendered from result data.
+    saved_file : str, optional
+        The saved result file (its name, without folders, goes into the footer).
 
     Returns
     -------
@@ -655,14 +935,17 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None)
     Raises
     ------
     InputError
-        When ``data`` is not a solve or check result or ``top`` is not a
-        positive integer.
+        When ``data`` is not a solve or check result, ``top`` is not a
+        positive integer or ``origin`` is unknown.
     """
     check_result_data(data)
     if top is not None and (isinstance(top, bool) or not isinstance(top, int) or top < 1):
         raise InputError(f"top must be a positive integer, got {top!r}")
+    if origin is not None and origin not in _ORIGINS:
+        raise InputError(f"origin must be 'run' or 'file', got {origin!r}")
+    footer = _footer(data, origin, saved_file)
     if data.get("workflow") == "check":
-        return _render_check(data, title)
+        return _render_check(data, title, footer)
     cands = data["candidates"][:top] if top else list(data["candidates"])
     peaks = data.get("peaks") or []
     caution = data.get("caution") or _DEFAULT_CAUTION
@@ -671,10 +954,12 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None)
         f"<h1>{_e(title)}</h1>",
         f'<p class="sub">Candidate structures for {_e(data["formula"])} from its 13C NMR lines: '
         "hypotheses for a chemist to test, not identifications.</p>",
+        _identification(data),
         f'<div class="caution" role="note"><strong>Caution.</strong> {_e(caution)}</div>',
         _sample(data),
         "<h2>Ranked candidates</h2>",
-        _summary(cands) if cands else "<p>No structure fits these data and constraints.</p>",
+        (_summary(cands, data.get("unlisted_probability")) if cands
+         else "<p>No structure fits these data and constraints.</p>"),
         "<h2>Inputs</h2>",
         _inputs(data),
         "<h2>Search</h2>",
@@ -685,4 +970,4 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None)
         body.append("<p>Atom numbers are 1-based positions in each SMILES as written (the molfile "
                     "numbering of the SDF export). The stick spectra run from high to low chemical shift.</p>")
         body += [_candidate(c, peaks) for c in cands]
-    return _page(title, body)
+    return _page(title, body, footer)

@@ -6,14 +6,23 @@ The dictionary is the contract other tools rely on: ``formula``, ``dbe``,
 ``smiles``, ``score``, ``probability``, ``mae_ppm``, ``max_error_ppm`` and
 ``assignment`` (``peak_index``, ``observed``, ``predicted``, ``atoms``).
 Renderers only read it; nothing here recomputes science.
+
+Report metadata travel with it: the ``run`` block (date and time, tool and
+shift-table versions, sample ID, analyst, reviewer; :mod:`.runinfo`) and,
+when the lines were picked from a spectrum file, ``spectrum_trace`` (the
+decimated 13C spectrum, :mod:`elucidate.spectrum.trace`), so that a saved
+result can be re-rendered with its spectrum.
 """
 
 from __future__ import annotations
 
 import math
 
+from ..errors import InputError
 from ..pipeline import CAUTION, SolveResult
 from ..rank.ambiguity import ambiguity_notes
+from ..spectrum.trace import SpectrumTrace
+from .runinfo import RunInfo
 
 __all__ = ["result_to_dict"]
 
@@ -24,10 +33,34 @@ def _num(x: float, nd: int = 2):
     return round(float(x), nd)
 
 
-def result_to_dict(result: SolveResult) -> dict:
-    """Serialise a :class:`~elucidate.pipeline.SolveResult` to plain data."""
+def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
+                   spectrum: SpectrumTrace | None = None) -> dict:
+    """Serialise a :class:`~elucidate.pipeline.SolveResult` to plain data.
+
+    Parameters
+    ----------
+    result : SolveResult
+    run : RunInfo, optional
+        Time of the run, sample ID and sign-off names (``run`` block); by
+        default the current time and no names.
+    spectrum : SpectrumTrace, optional
+        The measured spectrum the lines were picked from (``spectrum_trace``).
+
+    Returns
+    -------
+    dict
+        JSON-ready; identical for identical input apart from the time in
+        ``run.timestamp_utc``.
+    """
+    if run is None:
+        run = RunInfo.now()
+    if not isinstance(run, RunInfo):
+        raise InputError(f"run must be a RunInfo, got {type(run).__name__}")
+    if spectrum is not None and not isinstance(spectrum, SpectrumTrace):
+        raise InputError(f"spectrum must be a SpectrumTrace, got {type(spectrum).__name__}")
     s = result.settings
-    return {
+    data = {
+        "run": run.to_dict(),
         "formula": result.formula.hill,
         "dbe": result.dbe,
         "complete": result.complete,
@@ -88,4 +121,10 @@ def result_to_dict(result: SolveResult) -> dict:
         ],
         "ambiguity": ambiguity_notes(result.candidates),
         "caution": CAUTION,
+        "peaks_provenance": list(result.peaks.provenance),
     }
+    if result.peaks.observe_mhz:
+        data["observe_mhz"] = result.peaks.observe_mhz
+    if spectrum is not None:
+        data["spectrum_trace"] = spectrum.to_dict()
+    return data

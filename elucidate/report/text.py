@@ -2,12 +2,31 @@
 
 from __future__ import annotations
 
-__all__ = ["render_text", "unlisted_sentence"]
+__all__ = ["render_text", "run_lines", "unlisted_sentence"]
+
+
+def run_lines(data: dict) -> list[str]:
+    """Sample ID, date and time, versions and names from a result's ``run`` block (none if absent)."""
+    run = data.get("run")
+    if not isinstance(run, dict):
+        return []
+    head = []
+    if run.get("sample_id"):
+        head.append(f"sample {run['sample_id']}")
+    if run.get("timestamp_utc"):
+        head.append(f"run {run['timestamp_utc']} (UTC)")
+    if run.get("elucidate_version"):
+        head.append(f"elucidate {run['elucidate_version']}")
+    if run.get("shift_table_version"):
+        head.append(f"shift table {run['shift_table_version']}")
+    names = [f"{role} {run[key]}" for role, key in (("analyst", "analyst"), ("reviewer", "reviewer"))
+             if run.get(key)]
+    return [line for line in ("  ".join(head), "  ".join(names)) if line]
 
 
 def render_text(data: dict) -> str:
     """Render the plain-data result (see :mod:`.serialize`) as text."""
-    out = []
+    out = run_lines(data)
     comp = data.get("completeness") or {"status": "complete" if data["complete"] else "stopped at the time limit",
                                          "cost_bound": None}
     if comp["status"] == "complete":

@@ -3,7 +3,8 @@
 Modules: :mod:`.peaks` (typed/filed peak lists and their checks against a
 formula), :mod:`.solvents` (solvent lines and their removal),
 :mod:`.jcamp` (JCAMP-DX reading), :mod:`.picking` (peak picking),
-:mod:`.dept` (multiplicities from DEPT), :mod:`.jcamp_write` and
+:mod:`.dept` (multiplicities from DEPT), :mod:`.trace` (a decimated copy
+of a spectrum for reports), :mod:`.jcamp_write` and
 :mod:`.synthetic` (writing demonstration/test spectra).
 
 Results built on these inputs are hypotheses; picked and DEPT-edited peak

@@ -93,8 +93,15 @@ class BatchOptions:
     top: int = 10
     alternatives: int = 5
     html: bool = False
+    analyst: str | None = None  # names for the reports' sign-off blocks; they do not change results
+    reviewer: str | None = None
 
     def __post_init__(self):
+        from ..report.runinfo import RunInfo
+
+        names = RunInfo.now(None, self.analyst, self.reviewer)  # checks and trims the names
+        object.__setattr__(self, "analyst", names.analyst)
+        object.__setattr__(self, "reviewer", names.reviewer)
         if not (isinstance(self.time_limit, (int, float)) and self.time_limit > 0):
             raise InputError(f"--time-limit must be a positive number of seconds, got {self.time_limit!r}")
         if not isinstance(self.top, int) or self.top < 1:
@@ -194,7 +201,8 @@ def _fingerprint(sample: Sample, options: BatchOptions) -> str:
     path = Path(peaks)
     if os.path.isabs(peaks) and path.is_file():
         peaks = hashlib.sha256(path.read_bytes()).hexdigest()
-    settings = {k: v for k, v in asdict(options).items() if k != "html"}  # html does not change results
+    # html and the sign-off names do not change results
+    settings = {k: v for k, v in asdict(options).items() if k not in ("html", "analyst", "reviewer")}
     blob = json.dumps([__version__, sample.formula, peaks, sample.expected, sample.solvent, settings],
                       sort_keys=True)
     return hashlib.sha256(blob.encode()).hexdigest()[:16]
@@ -205,27 +213,38 @@ def run_sample(sample: Sample, options: BatchOptions) -> dict:
 
     Returns the JSON document written as ``<id>.json``: the workflow's result
     plus a ``sample`` block (``id``, ``row``, ``status`` "ok" or "error",
-    ``error``, ``elapsed_s``, ``fingerprint``).
+    ``error``, ``elapsed_s``, ``fingerprint``) and, when it ran, the ``run``
+    block (date and time, versions, the id as sample ID, sign-off names; see
+    :mod:`elucidate.report.runinfo`).
     """
+    from datetime import datetime, timezone
+
     start = time.monotonic()
+    started = datetime.now(timezone.utc)
     info = {"id": sample.id, "row": sample.row, "workflow": sample.workflow, "status": "ok",
             "error": None, "fingerprint": _fingerprint(sample, options) if not sample.problem else None}
     data: dict = {}
     try:
         if sample.problem:
             raise InputError(sample.problem)
+        from ..report.runinfo import RunInfo
+
+        run = RunInfo(started, sample.id, options.analyst, options.reviewer)
         if sample.expected:
             from .check import check_structure, check_to_dict
 
             result = check_structure(sample.expected, sample.peaks, formula=sample.formula or None,
                                      solvent=sample.solvent, time_limit=options.time_limit,
                                      alternatives=options.alternatives)
-            data = check_to_dict(result)
+            data = {"run": run.to_dict(), **check_to_dict(result)}
         else:
             from ..api import solve, to_dict
+            from ..spectrum.trace import trace_for_peaks
 
-            data = to_dict(solve(sample.formula, sample.peaks, solvent=sample.solvent,
-                                 time_limit=options.time_limit, top=options.top))
+            result = solve(sample.formula, sample.peaks, solvent=sample.solvent, time_limit=options.time_limit,
+                           top=options.top)
+            data = to_dict(result, sample_id=run.sample_id, analyst=run.analyst, reviewer=run.reviewer,
+                           run_at=run.timestamp, spectrum=trace_for_peaks(sample.peaks))
     except InputError as exc:
         info.update(status="error", error=" ".join(str(exc).split()))
     except Exception as exc:  # a bug in one sample must not stop the batch
@@ -343,7 +362,7 @@ def run_batch(
                 skipped += 1
                 html_path = out / f"{s.filename}.html"
                 if render is not None and not html_path.exists():  # asked for HTML only now
-                    _write_atomic(html_path, render(done))
+                    _write_atomic(html_path, render(done, origin="file", saved_file=f"{s.filename}.json"))
                 continue
         todo.append(s)
     total = len(samples)
@@ -355,7 +374,7 @@ def run_batch(
             _write_atomic(out / f"{sample.filename}.json", json.dumps(doc, indent=1) + "\n")
         if render is not None and doc["sample"]["status"] == "ok":
             try:
-                html = render(doc)
+                html = render(doc, origin="run")
             except Exception as exc:  # the report is optional; the JSON is already written
                 doc["sample"]["html_error"] = f"{type(exc).__name__}: {exc}"
             else:
