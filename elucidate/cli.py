@@ -86,6 +86,19 @@ def _structure_options(fn):
     return fn
 
 
+def _solvent(ctx, param, value):
+    """Check --solvent up front: an empty or unknown name is an error, never ignored."""
+    if value is not None:
+        from .spectrum.solvents import resolve_solvent
+
+        resolve_solvent(value)
+    return value
+
+
+_SOLVENT_HELP = ("Deuterated solvent whose lines are dropped, e.g. CDCl3 (common names such as dmso or "
+                 "water = D2O work; D2O has no carbon, so nothing is dropped for it).")
+
+
 def _formula(text):
     from .formula import parse_formula
 
@@ -156,7 +169,7 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
 @click.option("--formula", "-f", required=True, help="Molecular formula from HRMS, e.g. C8H8O2.")
 @click.option("--peaks", "-p", required=True, metavar="FILE|TEXT",
               help='Peak file, or inline text such as "206.9 C, 45.2 CH2, 29.9 CH3".')
-@click.option("--solvent", default=None, help="Deuterated solvent whose lines are dropped, e.g. CDCl3.")
+@click.option("--solvent", default=None, callback=_solvent, help=_SOLVENT_HELP)
 @click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=60.0, show_default=True,
               help="Seconds for the search; partial results are flagged incomplete.")
 @click.option("--top", type=click.IntRange(min=1), default=10, show_default=True,
@@ -378,6 +391,8 @@ def bench(cases, mode, limit, heavy, every, time_limit, output):
             lo, hi = (int(x) for x in heavy.split("-"))
         except ValueError:
             raise InputError(f"--heavy {heavy!r}: write a range such as 4-10") from None
+        if lo > hi:
+            raise InputError(f"--heavy {heavy!r}: the lower bound exceeds the upper one; write e.g. {hi}-{lo}")
         band = (lo, hi)
     rows = run_bench(cases, mode=mode, limit=limit, heavy=band, every=every, time_limit=time_limit,
                      progress=(lambda msg: click.echo(msg, err=True)) if sys.stderr.isatty() else None)
@@ -394,7 +409,7 @@ def bench(cases, mode, limit, heavy, every, time_limit, output):
               help='Peak file, or inline text such as "209.3 C, 36.9 CH2, 29.4 CH3, 7.9 CH3".')
 @click.option("--formula", "-f", default=None,
               help="Molecular formula from HRMS (default: the expected structure's).")
-@click.option("--solvent", default=None, help="Deuterated solvent whose lines are dropped, e.g. CDCl3.")
+@click.option("--solvent", default=None, callback=_solvent, help=_SOLVENT_HELP)
 @click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=30.0, show_default=True,
               help="Seconds for the isomer search (positional isomers, same scaffold, open formula).")
 @click.option("--alternatives", type=click.IntRange(min=0), default=5, show_default=True,
@@ -477,8 +492,9 @@ def batch(samples, output, workers, time_limit, top, force, html, cluster, analy
                          "same command again to resume") from None
     if bar is not None:
         click.echo("", err=True)
+    failed = f"{report.failed} failed" + (" (exit code 1)" if report.failed else "")
     click.echo(f"{len(report.rows)} samples: {report.ran} run, {report.skipped} already done, "
-               f"{report.failed} failed; summary in {report.output / 'summary.csv'}")
+               f"{failed}; summary in {report.output / 'summary.csv'}")
     for row in report.rows:
         if row["status"] != "ok":
             click.echo(f"  {row['id']}: {row['message']}", err=True)

@@ -199,10 +199,17 @@ def parse_formula(text: str) -> Formula:
             raise InputError(f"formula {text!r}: count 0 for {sym}; leave the element out")
         totals[sym] = totals.get(sym, 0) + n
     if pos != len(raw):
-        raise InputError(
-            f"formula {text!r}: cannot read {raw[pos:]!r}; use element symbols "
-            "followed by counts, e.g. C8H8O2 (no charges, brackets or isotopes)"
-        )
+        rest = raw[pos:]
+        if any(ch in rest for ch in "+-"):
+            hint = ("a charge is not accepted: give the neutral molecule's formula (for a protonated "
+                    "ion [M+H]+ from MS, subtract one H)")
+        elif any(ch in rest for ch in "[]()"):
+            hint = "brackets are not accepted: write the plain molecular formula, e.g. C4H8O2"
+        elif rest[0].islower():
+            hint = "element symbols start with a capital letter (C, Cl, Br), e.g. C8H8O2"
+        else:
+            hint = "use element symbols followed by counts, e.g. C8H8O2 (no charges, brackets or isotopes)"
+        raise InputError(f"formula {text!r}: cannot read {rest!r}; {hint}")
     for sym, n in totals.items():
         if n > _MAX_COUNT:
             raise InputError(f"formula {text!r}: {n} atoms of {sym} is beyond the supported {_MAX_COUNT}")

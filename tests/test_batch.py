@@ -113,8 +113,26 @@ def test_cli_batch(sheet, tmp_path):
     res = runner.invoke(main, ["batch", str(sheet), "--output", str(tmp_path / "o"), "--time-limit", "5"])
     assert res.exit_code == 1  # one malformed row
     assert "5 samples: 5 run" in res.stdout and "QC-3" in res.stderr
+    assert "1 failed (exit code 1); summary in" in res.stdout
     bad = runner.invoke(main, ["batch", str(tmp_path / "none.csv"), "--output", str(tmp_path / "o")])
     assert bad.exit_code == 2 and bad.stderr.startswith("error:")
+
+
+def test_cli_batch_exit_code_zero_when_every_sample_ran(tmp_path):
+    # 2-butanone, CDCl3 shifts from memory of standard 13C tables (see the module docstring).
+    (tmp_path / "butanone.txt").write_text("209.3 C\n36.9 CH2\n29.4 CH3\n7.9 CH3\n")
+    sheet = tmp_path / "ok.csv"
+    sheet.write_text("id,formula,peaks\nQC-1,C4H8O,butanone.txt\n")
+    res = CliRunner().invoke(main, ["batch", str(sheet), "--output", str(tmp_path / "o"), "--time-limit", "5"])
+    assert res.exit_code == 0, res.output
+    assert "1 samples: 1 run, 0 already done, 0 failed; summary in" in res.stdout
+    assert "exit code" not in res.stdout
+    # a sample that fails when run (not only a malformed row) also gives exit code 1
+    sheet.write_text("id,formula,peaks\nQC-1,C4H8O,butanone.txt\nQC-2,C4H8O,\"209,3 C, 36,9 CH2\"\n")
+    res = CliRunner().invoke(main, ["batch", str(sheet), "--output", str(tmp_path / "o"), "--time-limit", "5"])
+    assert res.exit_code == 1, res.output
+    assert "2 samples: 1 run, 1 already done, 1 failed (exit code 1)" in res.stdout
+    assert "QC-2" in res.stderr and "ambiguous" in res.stderr
 
 
 def test_batch_on_dask_local_cluster_gives_same_summary(sheet, tmp_path):

@@ -11,7 +11,7 @@ import json
 from pathlib import Path
 
 import pytest
-from hypothesis import given, settings
+from hypothesis import assume, given, settings
 from hypothesis import strategies as st
 
 from elucidate.errors import InputError
@@ -117,8 +117,185 @@ def test_semicolon_csv_header():
 def test_decimal_comma_in_semicolon_and_tab_tables():
     assert parse_peaks("shift;mult\n128,4;CH\n").shifts == (128.4,)
     assert parse_peaks("shift\tmult\n77,16\t?\n").shifts == (77.16,)
-    with pytest.raises(InputError, match="decimal point"):
-        parse_peaks("shift,mult\n\"128,4\",CH\n")
+    assert parse_peaks("shift mult count\n128,4 CH 2\n").shifts == (128.4,)
+    # a quoted field of a comma-separated table (spreadsheet export) holds one value
+    assert triples(parse_peaks('shift,mult\n"128,4",CH\n"77,2",C\n')) == [(128.4, "CH", None), (77.2, "C", None)]
+
+
+# --------------------------------------------------------------------------
+# decimal commas: parsed when only one reading exists, otherwise rejected.
+# Decimal comma usage (171,1 for 171.1) in much of Europe: common practice, no source.
+
+DECIMAL_COMMA_OK = [
+    # inline, lines separated by ';'
+    ("171,1 C; 60,5 CH2; 21,0 CH3; 14,2 CH3",
+     [(171.1, "C", None), (60.5, "CH2", None), (21.0, "CH3", None), (14.2, "CH3", None)]),
+    ("171,1; 60,5", [(171.1, "?", None), (60.5, "?", None)]),
+    ("128,4 CH 2; 77,2 C", [(128.4, "CH", 2), (77.2, "C", None)]),
+    ("128,4(CH); 45,1 (CH2) x2", [(128.4, "CH", None), (45.1, "CH2", 2)]),
+    ("-5,2 CH3; 10,1", [(-5.2, "CH3", None), (10.1, "?", None)]),
+    ("171,1 C;", [(171.1, "C", None)]),  # one line ended by ';'
+    # file content: one line per peak
+    ("# sample QC-0142 (invented)\n128,4 CH\n77,2 C 2\n", [(128.4, "CH", None), (77.2, "C", 2)]),
+    # mixed with decimal points is fine when ';' separates
+    ("171,1 C; 60.5 CH2", [(171.1, "C", None), (60.5, "CH2", None)]),
+    # tables
+    ("shift;mult;count\n128,4;CH;2\n", [(128.4, "CH", 2)]),
+    ('shift,count\n"128,4",2\n', [(128.4, "?", 2)]),
+    # commas next to a decimal point or a letter separate, as before
+    ("171.1,60.5,21.0", [(171.1, "?", None), (60.5, "?", None), (21.0, "?", None)]),
+    ("45.2 CH2,29.9 CH3", [(45.2, "CH2", None), (29.9, "CH3", None)]),
+    ("45.2 CH2,29 CH3", [(45.2, "CH2", None), (29.0, "CH3", None)]),
+    ("128.4 CH x2,77 C", [(128.4, "CH", 2), (77.0, "C", None)]),
+    ("10, 20, 30", [(10.0, "?", None), (20.0, "?", None), (30.0, "?", None)]),
+    ("171.1,\n60.5,\n", [(171.1, "?", None), (60.5, "?", None)]),  # trailing commas
+    # dot decimals elsewhere in a comma table: 128 is a whole-number shift
+    ("shift,count\n128,4\n77.2,1\n", [(128.0, "?", 4), (77.2, "?", 1)]),
+]
+
+
+@pytest.mark.parametrize("text,expected", DECIMAL_COMMA_OK)
+def test_decimal_comma_read_when_unambiguous(text, expected):
+    assert triples(parse_peaks(text)) == expected
+
+
+DECIMAL_COMMA_AMBIGUOUS = [
+    # one line, no ';': 128.4, or the lines 128 and 4?
+    ("128,4", "'128,4' may be the decimal comma 128.4 ppm or the two lines 128 and 4"),
+    ("128,4 CH 2", "write 128.4 (decimal point) or '128, 4' (two lines)"),
+    ("58,18", "58.18"),
+    # comma used both as decimal mark and as separator
+    ("171,1 C, 60,5 CH2", "commas also separate lines here"),
+    ("171,1 C, 60,5 CH2, 21,0 CH3, 14,2 CH3", "separate the lines with ';' or newlines only"),
+    ("171.1,60,5", "'60,5' may hold a decimal comma (60.5)"),
+    ("171,1 C; 60,5 CH2, 21,0 CH3", "commas also separate lines here"),
+    ("128,4 CH,\n77,2 C,\n", "commas also separate lines here"),
+    # whole numbers joined by commas
+    ("10,20,30", "put a space after each separating comma ('10, 20, 30')"),
+    ("171,1,60,5; 21,0", "'171,1,60,5'"),
+    # a comma after the shift of a line
+    ("128.4 CH 2,77 C", "'2,77' follows a shift"),
+    ("128,4 CH 2,5; 77,2 C", "'2,5' follows a shift"),
+    # comma-separated tables: a split decimal comma
+    ("shift,count\n128,4\n77,2\n", "'128,4' may be the decimal comma 128.4 split over two columns"),
+    ("shift,intensity\n128,85\n", "quote decimal-comma values"),
+    ("shift,mult\n128,4,CH\n", "or separate the columns with ';'"),
+    ("shift,mult\n128,4,CH\n77.5,C\n", "must be quoted"),
+    # tables without their header
+    ("128.4,2\n77.2,1\n", "like a table without its header"),
+    ("128,4;2\n77,2;1\n", "like a table without its header"),
+    ("128.4,2\n77.2,\n", "like a table without its header"),
+]
+
+
+@pytest.mark.parametrize("text,fragment", DECIMAL_COMMA_AMBIGUOUS)
+def test_decimal_comma_rejected_when_ambiguous(text, fragment):
+    with pytest.raises(InputError) as exc:
+        parse_peaks(text)
+    assert fragment in str(exc.value)
+    assert "\n" not in str(exc.value)
+
+
+def test_decimal_comma_in_files(tmp_path):
+    ok = tmp_path / "peaks.txt"
+    ok.write_text("# QC-0142 (invented), CDCl3\n171,1 C\n60,5 CH2\n14,2 CH3\n", encoding="utf-8")
+    assert read_peaks(str(ok)).shifts == (171.1, 60.5, 14.2)
+    semi = tmp_path / "peaks.csv"
+    semi.write_text("Shift;Mult\n171,1;C\n60,5;CH2\n", encoding="utf-8")
+    assert read_peaks(str(semi)).shifts == (171.1, 60.5)
+    quoted = tmp_path / "export.csv"
+    quoted.write_text('shift,mult\n"171,1",C\n"60,5",CH2\n', encoding="utf-8")
+    assert read_peaks(str(quoted)).shifts == (171.1, 60.5)
+    mixed = tmp_path / "mixed.txt"
+    mixed.write_text("171,1 C, 60,5 CH2\n", encoding="utf-8")
+    with pytest.raises(InputError, match="ambiguous") as exc:
+        read_peaks(str(mixed))
+    assert str(mixed) in str(exc.value) and "\n" not in str(exc.value)
+    split = tmp_path / "split.csv"
+    split.write_text("shift,count\n171,1\n60,5\n", encoding="utf-8")
+    with pytest.raises(InputError, match="split over two columns"):
+        read_peaks(str(split))
+
+
+_SHIFTS = st.floats(-20, 250, allow_nan=False).map(lambda x: round(x, 1))
+
+
+def _dc(x: float) -> str:
+    """A shift written with a decimal comma."""
+    return f"{x:.1f}".replace(".", ",")
+
+
+def _item(shift: str, mult: str, count) -> str:
+    return f"{shift} {mult}" + ("" if count is None else f" {count}")
+
+
+_RENDERINGS = {
+    "points, comma-space": lambda ps: ", ".join(_item(f"{s:.1f}", m, c) for s, m, c in ps),
+    "points, bare commas": lambda ps: ",".join(_item(f"{s:.1f}", m, c) for s, m, c in ps),
+    "whole numbers, bare commas": lambda ps: ",".join(str(round(s)) for s, _, _ in ps),
+    "commas, semicolons": lambda ps: "; ".join(_item(_dc(s), m, c) for s, m, c in ps),
+    "commas, newlines": lambda ps: "\n".join(_item(_dc(s), m, c) for s, m, c in ps),
+    "commas, comma-space": lambda ps: ", ".join(_item(_dc(s), m, c) for s, m, c in ps),
+    "commas, bare commas": lambda ps: ",".join(_item(_dc(s), m, c) for s, m, c in ps),
+    "commas only, bare commas": lambda ps: ",".join(_dc(s) for s, _, _ in ps),
+    "commas only, spaces": lambda ps: " ".join(_dc(s) for s, _, _ in ps),
+    "csv, quoted commas": lambda ps: "shift,mult,count\n" + "".join(
+        f'"{_dc(s)}",{m},{"" if c is None else c}\n' for s, m, c in ps),
+    "csv, unquoted commas": lambda ps: "shift,mult,count\n" + "".join(
+        f"{_dc(s)},{m},{'' if c is None else c}\n" for s, m, c in ps),
+    "csv shift,count, unquoted commas": lambda ps: "shift,count\n" + "".join(
+        f"{_dc(s)},{'' if c is None else c}\n" for s, _, c in ps),
+    "csv, shift last": lambda ps: "count,shift\n" + "".join(
+        f"{'' if c is None else c},{_dc(s)}\n" for s, _, c in ps),
+    "semicolon csv": lambda ps: "shift;mult;count\n" + "".join(
+        f"{_dc(s)};{m};{'' if c is None else c}\n" for s, m, c in ps),
+    "tsv": lambda ps: "shift\tmult\tcount\n" + "".join(
+        f"{_dc(s)}\t{m}\t{'' if c is None else c}\n" for s, m, c in ps),
+    "headerless csv": lambda ps: "".join(f"{s:.1f},{'' if c is None else c}\n" for s, _, c in ps),
+}
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    st.lists(
+        st.tuples(_SHIFTS, st.sampled_from(["C", "CH", "CH2", "CH3", "?"]), st.one_of(st.none(), st.integers(1, 4))),
+        min_size=1,
+        max_size=6,
+        unique_by=lambda t: t[0],
+    ),
+    st.sampled_from(sorted(_RENDERINGS)),
+)
+def test_never_misread(peaks, style):
+    """Whatever the writing, the list is read as meant or rejected with one line.
+
+    Renderings without multiplicity or count drop them from the meaning too.
+    """
+    assume(style != "headerless csv" or len(peaks) >= 2)  # one such line reads as two shifts
+    assume(style != "whole numbers, bare commas" or len({round(s) for s, _, _ in peaks}) == len(peaks))
+    text = _RENDERINGS[style](peaks)
+    keeps_mult = style not in ("whole numbers, bare commas", "commas only, bare commas", "commas only, spaces")
+    keeps_mult = keeps_mult and "shift,count" not in style and "shift last" not in style and "headerless" not in style
+    keeps_count = keeps_mult or style in ("csv shift,count, unquoted commas", "csv, shift last", "headerless csv")
+    meant = [
+        (round(s) if style == "whole numbers, bare commas" else s,
+         m if keeps_mult else "?",
+         c if keeps_count else None)
+        for s, m, c in peaks
+    ]
+    try:
+        got = triples(parse_peaks(text))
+    except InputError as exc:
+        assert "\n" not in str(exc)
+        one_line = len(peaks) == 1 and style in ("commas, semicolons", "commas, newlines")
+        assert style not in _UNAMBIGUOUS or one_line, (text, str(exc))
+        return
+    assert [(pytest.approx(s), m, c) for s, m, c in got] == meant, text
+
+
+# Writings with one reading only: these must parse (a single decimal-comma
+# line without ';' is ambiguous, see DECIMAL_COMMA_AMBIGUOUS).
+_UNAMBIGUOUS = {"points, comma-space", "points, bare commas", "commas, semicolons", "commas, newlines",
+                "csv, quoted commas", "semicolon csv", "tsv"}
 
 
 def test_negative_and_limit_shifts_accepted():

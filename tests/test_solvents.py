@@ -130,9 +130,28 @@ def test_acetone_both_lines():
 
 def test_nothing_removed_returns_same_list():
     pl = parse_peaks("128.4 CH, 30 CH2")
-    assert remove_solvent_lines(pl, "d2o") is pl
     assert remove_solvent_lines(pl, "none") is pl
     assert remove_solvent_lines(pl, "cdcl3") is pl
+
+
+@pytest.mark.parametrize("name", ["D2O", "water", "Heavy Water", "deuterium oxide"])
+def test_solvent_without_carbon_says_nothing_was_removed(name):
+    # D2O holds no carbon, so it has no 13C line (trivially true, no source needed).
+    pl = parse_peaks("128.4 CH, 30 CH2")
+    out = remove_solvent_lines(pl, name)
+    assert out.peaks == pl.peaks
+    assert len(out.warnings) == 1 and "no 13C line was removed" in out.warnings[0]
+    assert "d2o" in out.warnings[0]
+    if name.lower() != "d2o":
+        assert repr(name) in out.warnings[0]  # the name the user typed, and how it was read
+
+
+@pytest.mark.parametrize("name", ["hexane", "DMF", "H2O-d", "wasser", "chloroform-d7", "acetone-d5"])
+def test_unknown_solvents_are_errors(name):
+    with pytest.raises(InputError) as exc:
+        resolve_solvent(name)
+    msg = str(exc.value)
+    assert f"unknown solvent {name!r}" in msg and "cdcl3" in msg and "water = d2o" in msg
 
 
 def test_bad_arguments():
@@ -174,3 +193,15 @@ def test_multiplet_removal_only_with_frequency():
     assert remove_solvent_lines(pl, "dmso-d6") is pl  # 0.63 ppm from the centre
     out = remove_solvent_lines(pl, "dmso-d6", observe_mhz=100.0)
     assert out.shifts == (55.0,)
+
+
+def test_cli_water_is_d2o_and_the_output_says_nothing_was_removed():
+    # Ethyl acetate, shifts from Fulmer et al. 2010 (from memory); 'water' = D2O, no carbon.
+    from click.testing import CliRunner
+
+    from elucidate.cli import main
+
+    res = CliRunner().invoke(main, ["solve", "--formula", "C4H8O2", "--peaks", "171.1 C, 60.5 CH2, 21.0 CH3, "
+                                    "14.2 CH3", "--solvent", "water", "--time-limit", "5", "--top", "1"])
+    assert res.exit_code == 0, res.output
+    assert "solvent 'water' (read as d2o) has no carbon, so no 13C line was removed" in res.stdout

@@ -14,7 +14,7 @@ scaffold first.
 
 from __future__ import annotations
 
-from rdkit import Chem, RDLogger
+from rdkit import Chem, rdBase
 from rdkit.Chem.Scaffolds import MurckoScaffold
 
 from ..errors import InputError
@@ -43,7 +43,16 @@ def parse_scaffold(smiles: str) -> Chem.Mol:
         raise InputError(
             f"--scaffold needs a SMILES string, got {smiles!r}; give e.g. 'c1ccccc1' for a benzene ring")
     text = smiles.strip()
-    RDLogger.DisableLog("rdApp.*")
+    with rdBase.BlockLogs():  # our one-line error replaces RDKit's parser log
+        mol = _parse_scaffold_text(text)
+    if mol is None or mol.GetNumAtoms() == 0:
+        raise InputError(
+            f"--scaffold {smiles!r} is not a valid SMILES; check brackets and ring-closure digits "
+            "(e.g. 'c1ccc2ccccc2c1' for naphthalene) and quote it in the shell")
+    return mol
+
+
+def _parse_scaffold_text(text: str) -> Chem.Mol | None:
     mol = Chem.MolFromSmiles(text)
     if mol is None:  # e.g. an aromatic ring cut out of a larger system: keep it as written
         mol = Chem.MolFromSmiles(text, sanitize=False)
@@ -57,10 +66,6 @@ def parse_scaffold(smiles: str) -> Chem.Mol:
         mol = Chem.MolFromSmarts(text)
         if mol is not None:
             mol.UpdatePropertyCache(strict=False)
-    if mol is None or mol.GetNumAtoms() == 0:
-        raise InputError(
-            f"--scaffold {smiles!r} is not a valid SMILES; check brackets and ring-closure digits "
-            "(e.g. 'c1ccc2ccccc2c1' for naphthalene) and quote it in the shell")
     return mol
 
 

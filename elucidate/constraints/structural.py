@@ -19,7 +19,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Sequence
 
-from rdkit import Chem
+from rdkit import Chem, rdBase
 
 from ..errors import InputError
 from ..generate import StructureFilter
@@ -79,7 +79,8 @@ IMPLAUSIBLE_MOTIFS: tuple[Motif, ...] = (
 
 def compile_smarts(pattern: str, option: str) -> Chem.Mol:
     """Compile a SMARTS pattern or raise InputError naming the option."""
-    query = Chem.MolFromSmarts(pattern) if pattern else None
+    with rdBase.BlockLogs():  # our one-line error replaces RDKit's parser log
+        query = Chem.MolFromSmarts(pattern) if isinstance(pattern, str) and pattern.strip() else None
     if query is None:
         raise InputError(
             f"{option} {pattern!r} is not valid SMARTS; write e.g. '[CX3]=O' for a carbonyl "
@@ -124,6 +125,11 @@ def ring_filters(
     for name, value in (("max-rings", max_rings), ("min-ring-size", min_ring_size), ("max-ring-size", max_ring_size)):
         if value is not None and value < 0:
             raise InputError(f"--{name} must be zero or positive, got {value}")
+    if min_ring_size is not None and max_ring_size is not None and min_ring_size > max_ring_size:
+        raise InputError(
+            f"--min-ring-size {min_ring_size} exceeds --max-ring-size {max_ring_size}: no ring could "
+            "satisfy both; swap them, or use --max-rings 0 for structures without rings"
+        )
     if max_rings is not None:
         out.append(
             StructureFilter(

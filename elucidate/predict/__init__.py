@@ -58,10 +58,10 @@ def predict_smiles(smiles: str) -> tuple[AtomShift, ...]:
     if not isinstance(smiles, str) or not smiles.strip():
         raise InputError(
             f"expected a SMILES string, got {smiles!r}; give e.g. 'CCO' for ethanol")
-    from rdkit import RDLogger
+    from rdkit import rdBase
 
-    RDLogger.DisableLog("rdApp.*")
-    mol = Chem.MolFromSmiles(smiles.strip())
+    with rdBase.BlockLogs():  # our one-line error replaces RDKit's parser log
+        mol = Chem.MolFromSmiles(smiles.strip())
     if mol is None:
         raise InputError(
             f"could not parse SMILES {smiles!r}; check brackets, ring-closure "

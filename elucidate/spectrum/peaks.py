@@ -21,8 +21,40 @@ comments and blank lines ignored::
 CSV or TSV with a header line naming the columns (case-insensitive):
 ``shift`` (also ``ppm``, ``delta``), ``mult``/``multiplicity`` (also
 ``dept``) and ``count`` (also ``n``, ``carbons``); other columns are ignored
-with a warning.  In semicolon- or tab-separated tables a decimal comma
-(``128,4``) is read as a decimal point.
+with a warning.
+
+Decimal commas
+--------------
+A shift such as ``171,1`` (decimal comma) is read as 171.1 only where the
+comma cannot be a separator, and is otherwise rejected with a one-line error
+saying how to rewrite it; a comma is never silently read the wrong way.
+
+* Plain text (inline or a file): a comma between two whole numbers
+  (``171,1``) is a decimal comma when the lines are separated by ``;`` or
+  newlines, no comma in the text separates lines, and every such number is
+  the shift (first field) of its line::
+
+      171,1 C; 60,5 CH2; 21,0 CH3      -> 171.1, 60.5, 21.0
+      128,4 CH 2                       (one per line in a file) -> 128.4 x2
+
+  Everything else with such a comma is ambiguous and rejected:
+  ``"128,4"`` or ``"58,18"`` on one line (128.4, or the lines 128 and 4?),
+  ``"171,1 C, 60,5 CH2"`` (the comma used both ways: whitespace is no safe
+  guide, it is lost or added when text is copied), ``"10,20,30"`` (whole
+  numbers joined by commas), ``"128,4 CH 2,5"`` (a comma outside the shift).
+  Fixes: decimal points; ``;`` or newlines between lines; a space after a
+  separating comma (``"10, 20, 30"``).  A comma next to a decimal point or a
+  letter is a separator as before (``"171.1,60.5"``, ``"45.2 CH2,29.9"``).
+* Tables: in ``;``-, tab- or space-separated tables a field ``128,4`` is a
+  decimal comma; in comma-separated tables a quoted field ``"128,4"`` is
+  (spreadsheet export).  An unquoted whole-number shift followed by a
+  whole-number field (``128,4`` under ``shift,count``) is rejected unless
+  other shifts of the table carry a decimal point.
+* A multi-line text whose every line is the same number (two or more) of
+  bare numbers or empty fields joined by ``,`` or ``;`` without spaces
+  (``128.4,2`` / ``77.2,``) is taken for a table without its header and
+  rejected: the second column may be a count or an intensity, not a shift.
+  A single such line cannot be told from two shifts and is read as shifts.
 
 Multiplicity tokens (case-insensitive): ``C``, ``CH``, ``CH2``, ``CH3``; the
 off-resonance letters ``s``, ``d``, ``t``, ``q``; ``CH0`` and ``Cq`` for a
@@ -30,7 +62,8 @@ carbon without hydrogen; ``?`` (or nothing) for unknown.  A count may be
 written ``2``, ``2C`` or ``x2``.
 
 Identical lines (same shift and multiplicity) are merged into one line with
-a warning; their counts add when every copy carries a count.
+a warning; their counts add when every copy carries a count.  Copies of
+which some carry a count and others not are rejected (the total is unknown).
 
 All problems raise :class:`elucidate.errors.InputError` with a one-line
 message naming the peak (1-based), the value received and how to fix it.
@@ -334,8 +367,14 @@ def _tokenize(item: str) -> list[str]:
 # merging
 
 
-def _merge(peaks: tuple[Peak, ...], warnings: tuple[str, ...], what: str = "line") -> PeakList:
-    """Merge identical (shift, hydrogens) entries at the first occurrence."""
+def _merge(
+    peaks: tuple[Peak, ...], warnings: tuple[str, ...], what: str = "line", strict: bool = False
+) -> PeakList:
+    """Merge identical (shift, hydrogens) entries at the first occurrence.
+
+    With ``strict`` (lists typed by a user), copies of which some carry a
+    count and others not raise :class:`InputError`: their total is unknown.
+    """
     groups: dict[tuple[float, int | None], list[int]] = {}
     for i, p in enumerate(peaks):
         groups.setdefault((p.shift, p.hydrogens), []).append(i)
@@ -347,9 +386,15 @@ def _merge(peaks: tuple[Peak, ...], warnings: tuple[str, ...], what: str = "line
             out.append(first)
             continue
         counts = [peaks[i].count for i in idx]
+        numbers = ", ".join(str(i + 1) for i in idx)
+        if strict and None in counts and any(c is not None for c in counts):
+            raise InputError(
+                f"{what}s {numbers} repeat the line {first.shift:g} ppm {first.multiplicity}, some "
+                "with a carbon count and some without, so the total is unknown; give the line "
+                "once with its total count (or leave the count out on every copy)"
+            )
         total = sum(counts) if all(c is not None for c in counts) else None
         out.append(Peak(first.shift, first.hydrogens, total))
-        numbers = ", ".join(str(i + 1) for i in idx)
         if total is not None:
             tail = f"counts added to {total}"
         else:
@@ -410,6 +455,28 @@ def _is_header(line: str) -> bool:
     )
 
 
+def _reject_split_decimal_commas(rows, shift_i: int) -> None:
+    """In a comma-separated table, reject ``128,4`` read as shift 128 and a next field 4.
+
+    An unquoted whole-number shift followed by a whole-number field may be
+    a decimal comma that the delimiter split; it is accepted only when other
+    rows write their shifts with a decimal point.
+    """
+    if any("." in fields[shift_i] for _, _, _, fields in rows if shift_i < len(fields)):
+        return
+    for k, lineno, line, fields in rows:
+        if '"' in line or shift_i + 1 >= len(fields):
+            continue
+        a, b = fields[shift_i], fields[shift_i + 1]
+        if re.fullmatch(r"[+-]?\d+", a) and re.fullmatch(r"\d+", b):
+            raise InputError(
+                f"peak {k} (line {lineno}): '{a},{b}' may be the decimal comma {a}.{b} split over two "
+                f"columns, or the shift {a} followed by {b}; write shifts with a decimal point "
+                f"({a}.{b} or {a}.0), quote decimal-comma values (\"{a},{b}\") or separate the "
+                "columns with ';'"
+            )
+
+
 def _parse_table(lines: list[tuple[int, str]]) -> PeakList:
     header_line = lines[0][1]
     delimiter = "\t" if "\t" in header_line else (";" if ";" in header_line and "," not in header_line else ",")
@@ -441,27 +508,182 @@ def _parse_table(lines: list[tuple[int, str]]) -> PeakList:
     warnings = []
     if ignored:
         warnings.append("peak table columns ignored: " + ", ".join(repr(c) for c in ignored))
+    rows = [(k, lineno, line, split(line)) for k, (lineno, line) in enumerate(lines[1:], start=1)]
+    if delimiter == ",":
+        _reject_split_decimal_commas(rows, shift_i)
     peaks = []
-    for k, (lineno, line) in enumerate(lines[1:], start=1):
-        fields = split(line)
+    for k, lineno, line, fields in rows:
         where = f"peak {k} (line {lineno})"
         if len(fields) > len(header) and any(f for f in fields[len(header):]):
+            hint = ""
+            if delimiter == "," and re.search(r"(?<![\d.])\d+,\d+(?![\d.])", line):
+                hint = "; a decimal comma such as 128,4 must be quoted (\"128,4\") or the columns separated by ';'"
             raise InputError(
                 f"{where}: {len(fields)} fields but the header names {len(header)}; "
-                "check the delimiter and the header"
+                f"check the delimiter and the header{hint}"
             )
         def get(i):
             return fields[i] if i is not None and i < len(fields) else ""
         if get(shift_i) == "":
             raise InputError(f"{where}: the shift field is empty; every row needs a shift in ppm")
         raw_shift = get(shift_i)
-        if delimiter in (";", "\t", None) and re.fullmatch(r"[+-]?\d+,\d+", raw_shift):
-            raw_shift = raw_shift.replace(",", ".")  # decimal comma (spreadsheet export)
+        if re.fullmatch(r"[+-]?\d+,\d+", raw_shift):
+            # One field holding '128,4' is a decimal comma: in ';'-, tab- or space-separated
+            # tables the comma cannot separate columns, and in comma-separated ones the
+            # field was quoted (spreadsheet export).
+            raw_shift = raw_shift.replace(",", ".")
         shift = _read_shift(raw_shift, where)
         peaks.append(Peak(shift, _read_mult(get(mult_i), where), _read_count(get(count_i), where)))
     if not peaks:
         raise InputError("peak table has a header but no rows; add one row per peak below the header")
-    return _merge(tuple(peaks), tuple(warnings))
+    return _merge(tuple(peaks), tuple(warnings), strict=True)
+
+
+_DIGITS = "0123456789"
+
+
+@dataclass(frozen=True)
+class _DigitComma:
+    """A comma joining two whole numbers (``171,1``): decimal mark or separator."""
+
+    lineno: int
+    line: str
+    start: int  # first character of the number before the comma (its sign included)
+    comma: int  # index of the comma
+    end: int  # one past the last digit after the comma
+    chained: bool  # another comma joins on directly (``10,20,30``)
+    leading: bool  # the number is the first field of its ';'-separated item
+
+    @property
+    def pair(self) -> tuple[str, str]:
+        """The whole numbers before and after the comma."""
+        return self.line[self.start:self.comma], self.line[self.comma + 1:self.end]
+
+    @property
+    def run(self) -> str:
+        """The whole run of numbers and commas around it (``10,20,30``)."""
+        head = re.search(r"[+-]?[\d,.]*$", self.line[:self.comma]).group(0)
+        tail = re.match(r"[\d,.]*", self.line[self.comma + 1:]).group(0)
+        return (head + "," + tail).strip(",.")
+
+
+def _digit_comma(lineno: int, line: str, i: int) -> _DigitComma | None:
+    """The comma at ``line[i]`` if it could be a decimal comma, else None.
+
+    It could be one when whole numbers stand on both sides: digits not
+    preceded by a decimal point or a letter (``CH2,77``, ``x2,77``) and not
+    followed by a decimal point (``2,77.2``).
+    """
+    if not (0 < i < len(line) - 1 and line[i - 1] in _DIGITS and line[i + 1] in _DIGITS):
+        return None
+    j = i - 1
+    while j > 0 and line[j - 1] in _DIGITS:
+        j -= 1
+    k = i + 1
+    while k < len(line) and line[k] in _DIGITS:
+        k += 1
+    before = line[j - 1] if j > 0 else ""
+    after = line[k] if k < len(line) else ""
+    if before == "." or before.isalpha() or before == "_" or after == ".":
+        return None  # a decimal point or a letter glued to a number: the comma separates
+    start = j - 1 if before and before in "+-" else j
+    chained = before == "," or after == ","
+    head = line[:start]
+    head = head[head.rfind(";") + 1:]
+    return _DigitComma(lineno, line, start, i, k, chained, head.strip() == "")
+
+
+def _plain_items(lines: list[tuple[int, str]]) -> list[tuple[int, str]]:
+    """Split plain peak text into items (one peak each), resolving decimal commas.
+
+    See the module docstring ("Decimal commas") for the rule; ambiguous
+    text raises :class:`InputError` naming the number and the fixes.
+    """
+    digit_commas: list[_DigitComma] = []
+    separator_comma = False
+    for lineno, line in lines:
+        for i, ch in enumerate(line):
+            if ch == ",":
+                found = _digit_comma(lineno, line, i)
+                if found is None:
+                    separator_comma = True
+                else:
+                    digit_commas.append(found)
+    decimal = bool(digit_commas)
+    if decimal:
+        _reject_ambiguous_commas(lines, digit_commas, separator_comma)
+    items: list[tuple[int, str]] = []
+    for lineno, line in lines:
+        parts = line.replace(",", ".").split(";") if decimal else re.split(r"[,;]", line)
+        items.extend((lineno, part) for part in parts if part.strip())
+    _reject_headerless_table(lines, decimal)
+    return items
+
+
+def _reject_ambiguous_commas(lines, digit_commas: list[_DigitComma], separator_comma: bool) -> None:
+    """Raise unless every comma joining whole numbers is surely a decimal comma."""
+    first = digit_commas[0]
+    a, b = first.pair
+    if separator_comma:
+        raise InputError(
+            f"peak text is ambiguous: '{a},{b}' may hold a decimal comma ({a}.{b}), but commas "
+            f"also separate lines here, so it could as well be the two lines {a} and {b}; "
+            f"write decimal points ({a}.{b}), or separate the lines with ';' or newlines only"
+        )
+    chained = next((c for c in digit_commas if c.chained), None)
+    if chained is not None:
+        run = chained.run
+        raise InputError(
+            f"peak text is ambiguous: in {run!r} a comma between whole numbers may be a decimal "
+            f"comma or a separator; put a space after each separating comma "
+            f"({', '.join(run.split(','))!r}), or write decimal points"
+        )
+    inner = next((c for c in digit_commas if not c.leading), None)
+    if inner is not None:
+        a, b = inner.pair
+        raise InputError(
+            f"peak text is ambiguous: '{a},{b}' follows a shift, so its comma may be a decimal "
+            f"comma or separate the next line; put a space after a separating comma ('{a}, {b}'), "
+            "and write one peak per line or item as 'shift [multiplicity] [count]'"
+        )
+    if len(lines) == 1 and ";" not in lines[0][1]:
+        raise InputError(
+            f"peak text is ambiguous: '{a},{b}' may be the decimal comma {a}.{b} ppm or the two "
+            f"lines {a} and {b} ppm; write {a}.{b} (decimal point) or '{a}, {b}' (two lines); "
+            "decimal commas are read only when lines are separated by ';' or newlines"
+        )
+
+
+_BARE_NUMBER = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)"
+_BARE_FIELD = re.compile(rf"(?:{_BARE_NUMBER})?")
+
+
+def _reject_headerless_table(lines: list[tuple[int, str]], decimal: bool) -> None:
+    """Reject rows like ``128.4,2`` on every line: a table that lost its header.
+
+    Every line must be bare numbers (or empty fields) joined by ',' or ';'
+    without spaces, all lines with the same number of fields, at least one
+    line with two numbers.
+    """
+    if len(lines) < 2:
+        return
+    widths = set()
+    full = False
+    for _, line in lines:
+        row = line.replace(",", ".") if decimal else line
+        fields = re.split(r"[,;]", row)
+        if len(fields) < 2 or not all(_BARE_FIELD.fullmatch(f) for f in fields):
+            return
+        widths.add(len(fields))
+        full = full or sum(1 for f in fields if f) >= 2
+    if len(widths) == 1 and full:
+        n = widths.pop()
+        raise InputError(
+            f"every line holds {n} fields of numbers joined by ',' or ';' (line {lines[0][0]}: "
+            f"{lines[0][1]!r}), like a table without its header: the later columns may be counts or "
+            "intensities; add a header line naming the columns (e.g. shift,count or shift,intensity), "
+            "or give one peak per line as 'shift [multiplicity] [count]'"
+        )
 
 
 def parse_peaks(text: str) -> PeakList:
@@ -503,18 +725,13 @@ def parse_peaks(text: str) -> PeakList:
     if _is_header(lines[0][1]):
         return _parse_table(lines)
     peaks: list[Peak] = []
-    k = 0
     multi_line = len(lines) > 1
-    for lineno, line in lines:
-        for item in re.split(r"[,;]", line):
-            if not item.strip():
-                continue
-            k += 1
-            where = f"peak {k} (line {lineno})" if multi_line else f"peak {k}"
-            peaks.append(_peak_from_tokens(_tokenize(item), where))
+    for k, (lineno, item) in enumerate(_plain_items(lines), start=1):
+        where = f"peak {k} (line {lineno})" if multi_line else f"peak {k}"
+        peaks.append(_peak_from_tokens(_tokenize(item), where))
     if not peaks:
         raise InputError("peak list is empty; give at least one shift in ppm")
-    return _merge(tuple(peaks), ())
+    return _merge(tuple(peaks), (), strict=True)
 
 
 def _looks_like_path(source: str) -> bool:
@@ -573,6 +790,8 @@ def read_peaks(source: str, *, dept135=None, dept90=None, pick_settings=None) ->
         from .jcamp import peaks_from_jcamp
 
         return peaks_from_jcamp(path, dept135, dept90, pick_settings)
+    if not exists and _looks_like_path(path):
+        raise InputError(f"peak file {path} not found; check the path (or give the peaks inline)")
     if dept135 is not None or dept90 is not None:
         raise InputError(
             "DEPT spectra were given but the peak source is not a JCAMP-DX 13C spectrum; give the "
@@ -583,8 +802,6 @@ def read_peaks(source: str, *, dept135=None, dept90=None, pick_settings=None) ->
             return parse_peaks(text)
         except InputError as exc:
             raise InputError(f"peak file {path}: {exc}") from None
-    if _looks_like_path(path):
-        raise InputError(f"peak file {path} not found; check the path (or give the peaks inline)")
     return parse_peaks(source)
 
 
@@ -628,7 +845,7 @@ def peaks_from_records(records) -> PeakList:
         peaks.append(Peak(shift_v, hyd, count))
     if not peaks:
         raise InputError("peak list is empty; give at least one peak record")
-    return _merge(tuple(peaks), (), "record")
+    return _merge(tuple(peaks), (), "record", strict=True)
 
 
 # ----------------------------------------------------------------------------

@@ -24,6 +24,18 @@ from memory, no specific source; they only place removal windows.
 Carbon tetrachloride (a non-deuterated solvent still met in older data) is
 not in that table; its single line at 96.1 ppm is a commonly quoted value,
 from memory, no specific source.
+
+Names
+-----
+Canonical names (``cdcl3``, ``dmso-d6``, ...) and the aliases in
+:data:`SOLVENT_ALIASES` are accepted, case-insensitively: full names
+(``chloroform-d``), formulas (``(CD3)2CO``) and the everyday names of the
+protonated solvents, which stand for their deuterated form (``dmso``,
+``chloroform``, ``methanol``; ``water`` and ``heavy water`` for ``d2o``).
+Any other name is an error listing the canonical names; ``none`` keeps
+every line.  D2O has no carbon, so nothing is removed for it; the result
+then carries a warning saying so, as it does for every solvent without
+13C lines, instead of passing silently.
 """
 
 from __future__ import annotations
@@ -186,8 +198,8 @@ def resolve_solvent(name: str) -> str:
             if k.replace("-", "") == cand.replace("-", ""):
                 return k
     raise InputError(
-        f"unknown solvent {name!r}; known: {', '.join(sorted(_CANONICAL))} "
-        "(or 'none' to keep every line)"
+        f"unknown solvent {name!r}; known: {', '.join(sorted(_CANONICAL))} (also common names such "
+        "as chloroform, dmso, methanol, water = d2o), or 'none' to keep every line"
     )
 
 
@@ -263,7 +275,9 @@ def remove_solvent_lines(
     Returns
     -------
     PeakList
-        The remaining lines, with a warning listing each dropped line.
+        The remaining lines, with a warning listing each dropped line (for
+        a solvent without carbon, such as D2O, a warning that nothing was
+        removed; ``"none"`` returns ``peaks`` unchanged).
 
     Raises
     ------
@@ -278,6 +292,11 @@ def remove_solvent_lines(
             raise InputError(f"{name} {value!r} must be a number of ppm in (0, 5]")
     mhz = peaks.observe_mhz if observe_mhz is None else observe_mhz
     lines = SOLVENT_LINES[canonical]
+    if not lines:
+        if canonical == "none":
+            return peaks
+        named = canonical if _key(solvent) == canonical else f"{solvent!r} (read as {canonical})"
+        return peaks.with_warnings(f"solvent {named} has no carbon, so no 13C line was removed")
     satellites = multiplet_lines(canonical, mhz) if mhz is not None else ()
     keep, dropped = [], []
     for p in peaks.peaks:

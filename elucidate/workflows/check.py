@@ -46,7 +46,7 @@ import time
 from dataclasses import dataclass
 from typing import Callable
 
-from rdkit import Chem, RDLogger
+from rdkit import Chem, rdBase
 from rdkit.Chem import rdMolDescriptors
 
 from ..errors import InputError
@@ -185,8 +185,8 @@ def _parse_structure(smiles) -> Chem.Mol:
     if not isinstance(smiles, str) or not smiles.strip():
         raise InputError(f"--smiles needs the expected structure as SMILES, got {smiles!r}; "
                          "e.g. 'CC(=O)Oc1ccccc1C(=O)O'")
-    RDLogger.DisableLog("rdApp.*")
-    mol = Chem.MolFromSmiles(smiles.strip())
+    with rdBase.BlockLogs():  # our one-line error replaces RDKit's parser log
+        mol = Chem.MolFromSmiles(smiles.strip())
     if mol is None:
         raise InputError(f"could not parse the expected structure {smiles!r}; check brackets, "
                          "ring-closure digits and valences")
