@@ -13,7 +13,7 @@ import math
 import numpy as np
 import pytest
 
-import elucidate.pipeline as pipeline
+import elucidate.search.scheduler as scheduler
 from elucidate.formula import parse_formula
 from elucidate.generate import enumerate_isomers
 from elucidate.generate.atomtypes import AtomType, type_distributions
@@ -102,7 +102,7 @@ def test_cover_cost_needs_every_line():
 
 def test_solve_falls_back_to_plans_and_keeps_its_promise(monkeypatch):
     # no time for the orderly search: the plan search alone must prove the bound
-    monkeypatch.setattr(pipeline, "_ORDERLY_SHARE", 0.0)
+    monkeypatch.setattr(scheduler, "ORDERLY_SHARE", 0.0)
     settings = SolveSettings(pool=4, top=100, keep=100, time_limit=60)
     result = solve("C5H10O", PENTANONE_PLAIN, settings)
     status, bound = result.completeness

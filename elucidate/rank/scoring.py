@@ -1,0 +1,107 @@
+"""Full score of one structure: predicted shifts, line assignment and prior.
+
+A structure's *raw score* is the cost of its optimal line assignment
+(Student-t shift likelihood with overlap, split and unfilled-line penalties,
+:mod:`elucidate.rank.assignment`) plus an optional prior cost (the
+environment rarity of :mod:`elucidate.constraints.environments`).  Every
+search strategy scores structures with :func:`score_structure`, so their
+results can be merged and ranked together; the calibrated weights of the two
+parts are applied later (:mod:`elucidate.rank.calibration`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Callable, Sequence
+
+from rdkit import Chem
+
+from ..constraints.spectral import carbon_classes
+from ..predict import predict_mol
+from .assignment import SPLIT_COST, Assignment, CarbonClass, assign_lines
+from .rotamers import rotamer_split_costs
+
+__all__ = ["ScoredStructure", "rank_structure", "score_structure", "smiles_order"]
+
+
+@dataclass(frozen=True)
+class ScoredStructure:
+    """A structure with its raw score and everything a report needs.
+
+    ``order`` maps the scored molecule's atom indices to the positions of
+    the atoms in ``smiles``; ``predicted`` holds ``(atom, H, shift, sigma)``
+    in the scored molecule's atom indices.
+    """
+
+    score: float
+    smiles: str
+    assignment: Assignment
+    prior: float
+    predicted: tuple
+    order: tuple[int, ...]
+
+    @property
+    def fit_cost(self) -> float:
+        """The assignment part of the raw score."""
+        return self.score - self.prior
+
+
+def rank_structure(mol: Chem.Mol, peaks: Sequence) -> tuple[Assignment, tuple]:
+    """Predict a structure's shifts and assign the lines to its carbons.
+
+    Carbons are grouped into symmetry classes (:func:`carbon_classes`); a
+    class that slow rotation about an amide-type bond can split pays its own
+    measured split cost (:mod:`elucidate.rank.rotamers`).
+    """
+    shifts = {a.index: a for a in predict_mol(mol)}
+    split_costs = rotamer_split_costs(mol)
+    classes = []
+    for h, groups in carbon_classes(mol).items():
+        for atoms in groups:
+            preds = [shifts[i] for i in atoms]
+            shift = sum(p.shift for p in preds) / len(preds)
+            sigma = max(p.sigma for p in preds)
+            classes.append(CarbonClass(h, tuple(atoms), shift, sigma, split_costs.get(atoms[0], SPLIT_COST)))
+    predicted = tuple((a.index, a.hydrogens, a.shift, a.sigma) for a in shifts.values())
+    return assign_lines(peaks, classes), predicted
+
+
+def smiles_order(mol: Chem.Mol, smiles_written: bool) -> tuple[int, ...]:
+    """Map each atom index of ``mol`` to its position in its canonical SMILES.
+
+    ``smiles_written`` says that ``Chem.MolToSmiles(mol, isomericSmiles=False)``
+    was already called on this molecule (RDKit keeps the output order).
+    """
+    if not smiles_written:
+        Chem.MolToSmiles(mol, isomericSmiles=False)
+    order = list(mol.GetPropsAsDict(True, True)["_smilesAtomOutputOrder"])
+    pos = [0] * mol.GetNumAtoms()
+    for p, a in enumerate(order):
+        pos[a] = p
+    return tuple(pos)
+
+
+def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
+                    prior: Callable[[Chem.Mol], float] | None,
+                    smiles_written: bool = True) -> ScoredStructure | None:
+    """Raw score of one structure, or None when its carbons cannot be placed
+    under the lines at all (e.g. no line of a carbon's multiplicity).
+
+    Parameters
+    ----------
+    smiles : str
+        Canonical SMILES of ``mol`` (its identity).
+    mol : rdkit.Chem.Mol
+    peaks : sequence of Peak
+    prior : callable(mol) -> float, optional
+        Prior cost added to the assignment cost.
+    smiles_written : bool
+        See :func:`smiles_order`.
+    """
+    assignment, predicted = rank_structure(mol, peaks)
+    if math.isinf(assignment.cost):
+        return None
+    p = prior(mol) if prior is not None else 0.0
+    return ScoredStructure(assignment.cost + p, smiles, assignment, p, predicted,
+                           smiles_order(mol, smiles_written))

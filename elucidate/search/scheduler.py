@@ -1,0 +1,200 @@
+"""Run the search strategies of one solve and state what they proved.
+
+Order and time sharing
+----------------------
+Without steering (no environment table, or no pool to score) the exhaustive
+scan runs alone and scores every structure as it comes.
+
+With steering, the cost-bounded strategies run first:
+
+1. *Orderly deepening* (:mod:`.orderly`) for up to 60 % of the generation
+   time (70 % of the time limit; the rest is kept for scoring); its first
+   pass may take at most 15 %, since a first pass that needs longer seldom
+   finishes at all.
+2. *Plan search* (:mod:`.plans`) when the orderly passes did not finish:
+   it runs until what remains is the time needed to score what it found.
+3. *Pool scoring* (:mod:`.pool`): the structures of lowest approximate cost
+   are scored with the full predictor and line assignment.
+
+Proofs combine as follows.  Each cost-bounded strategy proves that every
+structure it did not list costs at least its bound, so the union of their
+lists leaves out only structures costing at least the larger bound.
+Structures found but let go (pool limits, time cuts while scoring) lower the
+bound to their cost.  The result is stated rounded down.
+"""
+
+from __future__ import annotations
+
+import math
+import time
+
+from ..generate import enumerate_isomers
+from ..generate.atomtypes import type_distributions
+from ..rank.scoring import ScoredStructure
+from .base import Proof, SearchOutcome, SearchProblem, StrategyReport, rounded_bound
+from .orderly import BOUND_GROWTH, INITIAL_BOUND, PassOutcome, PassState, run_pass
+from .plans import SCORE_S, plan_shard
+from .pool import score_pool
+from .workers import WorkerPool, worker_count
+
+__all__ = ["run_search", "rank_key"]
+
+#: Share of the generation time given to the orderly deepening search before
+#: the plan-by-plan search takes over.
+ORDERLY_SHARE = 0.6
+#: ... of which the first pass (cost bound 8) may take at most this share.
+FIRST_PASS_SHARE = 0.15
+#: Share of the time limit the steered strategies may use for generation
+#: (the rest is reserved for scoring the pool).
+GENERATION_SHARE = 0.7
+
+
+def rank_key(item: ScoredStructure):
+    """Stable sort key of scored structures: raw score, then SMILES."""
+    return (item.score, item.smiles)
+
+
+def run_search(problem: SearchProblem) -> SearchOutcome:
+    """Search the constrained space of ``problem`` within its time limit."""
+    formula = problem.formula
+    all_dists = sum(1 for _ in type_distributions(formula, problem.valences,
+                                                  charged_nitrogen=problem.charged_nitrogen))
+    if not problem.steered:
+        return _exhaustive_scan(problem, all_dists)
+    return _steered(problem, all_dists)
+
+
+def _base_log(problem: SearchProblem, all_dists: int, last: PassOutcome) -> list:
+    rule = problem.constraints.rule
+    log = [("atom-type distributions (DEPT H counts)", all_dists, last.distributions)]
+    if rule is not None:
+        log.append((f"shift environments (closed carbons checked, margin {rule.margin:g} ppm)",
+                    last.checked, last.checked - last.rejected))
+    log += last.filter_log
+    return log
+
+
+def _exhaustive_scan(problem: SearchProblem, all_dists: int) -> SearchOutcome:
+    """Every structure of the constrained space, scored as it is generated."""
+    cons = problem.constraints
+    rule = cons.rule
+    t0 = time.monotonic()
+    run = enumerate_isomers(
+        problem.formula, valences=problem.valences, charged_nitrogen=problem.charged_nitrogen,
+        filters=cons.filters, accept_types=cons.accept, row_check_factory=rule,
+        time_limit=max(problem.deadline - time.monotonic(), 1e-3),
+    )
+    found: dict = {}
+    scored: list[ScoredStructure] = []
+    for structure in run:
+        found[structure.smiles] = (0.0, structure.mol)
+        item = problem.score(structure.smiles, structure.mol)
+        if item is not None:
+            scored.append(item)
+            if len(scored) > 4 * problem.keep:
+                scored = sorted(scored, key=rank_key)[: problem.keep]
+        problem.report("exhaustive generation", len(found))
+    last = PassOutcome({}, run.complete, 0, run.distributions, run.filter_log,
+                       rule.checked if rule else 0, rule.rejected if rule else 0)
+    status = "complete" if run.complete else "stopped at the time limit"
+    report = StrategyReport("exhaustive generation", len(found), time.monotonic() - t0,
+                            "every constitution, each scored" if run.complete else "cut by the time limit")
+    return SearchOutcome(scored, status, None, len(found), _base_log(problem, all_dists, last),
+                         {}, [report], "finished" if run.complete else "time limit")
+
+
+def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
+    cons = problem.constraints
+    rule = cons.rule
+    rule.steer = True
+    start = problem.start
+    pool_size = problem.pool_size
+    gen_deadline = start + problem.time_limit * GENERATION_SHARE
+    bound = INITIAL_BOUND
+    workers = worker_count(problem.workers)
+    state = PassState(problem.formula, problem.valences, problem.charged_nitrogen, cons)
+    executor = WorkerPool(state, workers, pool_size) if workers > 1 else None
+    orderly_deadline = start + (gen_deadline - start) * ORDERLY_SHARE
+    first_pass_deadline = start + (gen_deadline - start) * min(FIRST_PASS_SHARE, ORDERLY_SHARE)
+    dropped_min = math.inf
+    n_found = 0
+    runs: list[PassOutcome] = []
+    found: dict = {}
+    proven_bound = None  # every structure with approximate cost <= this was found
+    plan_runs = None  # outcome of the plan search, when it ran
+    exhausted = False  # the whole constrained space was searched
+    reports: list[StrategyReport] = []
+    t0 = time.monotonic()
+    try:
+        while True:
+            # a first pass that has not finished by then is unlikely to
+            # finish at all: hand over to the plan search early
+            pass_end = first_pass_deadline if not runs else orderly_deadline
+            outcome = (executor.run(bound, pass_end - time.monotonic()) if executor
+                       else run_pass(state, bound, pass_end - time.monotonic(), 0, 1, pool_size, False))
+            runs.append(outcome)
+            dropped_min = min(dropped_min, outcome.dropped_min)
+            n_found = max(n_found, outcome.n_found)
+            found.update(outcome.found)  # structure costs: the same in every pass
+            problem.report("cost-bounded generation", 0)
+            if not outcome.complete:
+                break
+            if outcome.bound_pruned == 0:
+                exhausted = True
+                break
+            proven_bound = bound
+            if outcome.n_found >= pool_size:
+                break
+            bound *= BOUND_GROWTH
+        reports.append(StrategyReport(
+            "orderly deepening", n_found, time.monotonic() - t0,
+            f"{len(runs)} pass(es), last at approximate cost {bound:.3g}"))
+        if not exhausted and not (proven_bound is not None and n_found >= pool_size) \
+                and time.monotonic() < gen_deadline:
+            # The orderly passes did not finish in their share of the time:
+            # list structures plan by plan in increasing cost (CP-SAT),
+            # which proves its own bound whatever time is left, running on
+            # until what remains is the time to score the pool it finds.
+            t1 = time.monotonic()
+            plan_deadline = max(gen_deadline, start + problem.time_limit - 1.0 - SCORE_S * len(found))
+            plan_runs = (executor.run_plans(pool_size, plan_deadline) if executor
+                         else plan_shard(state, 0, 1, pool_size, plan_deadline, False))
+            reports.append(StrategyReport("environment plans", len(plan_runs.found), time.monotonic() - t1,
+                                          f"{plan_runs.plans} plans, {plan_runs.solves} CP-SAT solves"))
+    finally:
+        if executor is not None:
+            executor.close()
+    if plan_runs is not None:
+        for smi, (cost, mol) in plan_runs.found.items():
+            known = found.get(smi)
+            if known is None or cost < known[0]:  # a plan costs one Kekulé form
+                found[smi] = (cost, mol)
+        n_found = max(n_found, len(found))
+        if plan_runs.exhausted:
+            exhausted, proven_bound, dropped_min = True, None, math.inf
+        else:
+            # every structure outside the plan search's list costs at least its bound
+            proven_bound = max(proven_bound if proven_bound is not None else -math.inf, plan_runs.lower, 0.0)
+            if dropped_min < math.inf:
+                proven_bound = min(proven_bound, max(dropped_min, plan_runs.lower))
+                dropped_min = math.inf
+    proof = Proof(exhausted, proven_bound)
+    if dropped_min < math.inf:
+        # structures let go during the passes cost at least this
+        proof = Proof.after_dropping(proof, dropped_min)
+    scored, proof, n_scored = score_pool(problem, found, proof)
+    reports.append(StrategyReport("full scoring of the cheapest structures", n_scored, 0.0))
+    if proof.exhausted:
+        status, cost_bound = "complete", None
+    elif proof.bound is not None:
+        status, cost_bound = "complete up to cost", rounded_bound(proof.bound)
+    else:
+        status, cost_bound = "stopped at the time limit", None
+    log = _base_log(problem, all_dists, runs[-1])
+    log.append((f"approximate-cost pool (best {pool_size}; {len(runs)} deepening passes)",
+                n_found, min(n_found, pool_size)))
+    if plan_runs is not None:
+        log.append((f"environment plans in increasing cost (CP-SAT, {plan_runs.solves} solves)",
+                    plan_runs.plans, len(plan_runs.found)))
+    ended = "finished" if status == "complete" else "time limit"
+    return SearchOutcome(scored, status, cost_bound, n_found, log, found, reports, ended)
