@@ -30,6 +30,7 @@ from .rank.assignment import LineEntry
 from .rank.calibration import Calibration, calibrated_scores, listed_chance, listed_probabilities, load_calibration
 from .rank.scoring import ScoredStructure, rank_structure
 from .search import SearchProblem, rank_key, run_search
+from .search.statement import assumptions, completeness_sentence, empty_result_warning, how_sentence
 from .spectrum.peaks import PeakList, check_against_formula, read_peaks
 from .spectrum.solvents import remove_solvent_lines
 
@@ -42,6 +43,10 @@ __all__ = [
     "explain_constraints",
     "approximate_cost",
 ]
+
+#: Search modes: cost-bounded strategies first and annealing when they cannot
+#: finish; cost-bounded only (every statement a proof); annealing only.
+SEARCH_MODES = ("auto", "bounded", "sampling")
 
 CAUTION = (
     "Results are hypotheses, not identifications: confirm with reference standards and "
@@ -72,12 +77,22 @@ class SolveSettings:
     pool: int | None = None  # structures fully scored in a steered search (None: from the time limit)
     prior_weight: float = 1.0  # weight of the environment-rarity prior in the score
     workers: int = 2  # processes for the steered search (results do not depend on it)
+    search: str = "auto"  # auto | bounded | sampling (see elucidate.search)
+    chains: int | None = None  # annealing chains at most (work budget; reproducible when it, not time, ends the run)
+    neighbours: int = 5  # reference spectra most similar to the observed one, listed with the result
+    libraries: tuple[str, ...] = ()  # a lab's own reference libraries (SD or JSON lines), besides the shipped one
 
     def __post_init__(self):
         if not (self.time_limit > 0):
             raise InputError(f"--time-limit must be a positive number of seconds, got {self.time_limit}")
         if self.top < 1:
             raise InputError(f"--top must be at least 1, got {self.top}")
+        if self.search not in SEARCH_MODES:
+            raise InputError(f"--search {self.search!r} unknown; use one of {', '.join(SEARCH_MODES)}")
+        if self.chains is not None and self.chains < 1:
+            raise InputError(f"--chains must be at least 1, got {self.chains}")
+        if self.neighbours < 0:
+            raise InputError(f"--neighbours must be 0 or more, got {self.neighbours}")
 
 
 @dataclass(frozen=True)
@@ -100,6 +115,7 @@ class Candidate:
     unfilled: tuple[int, ...]
     prior: float = 0.0  # environment-rarity prior part of the raw score
     fit_cost: float = 0.0  # assignment part (shift likelihood, overlap/split) of the raw score
+    found_by: str = ""  # the search strategy that found it
 
 
 @dataclass(frozen=True)
@@ -116,6 +132,14 @@ class SolveResult:
     constraint_log: tuple[tuple[str, int, int], ...]
     #: calibrated probability that the answer is none of the listed structures
     unlisted_probability: float = 0.0
+    #: one sentence: what was searched and how, and why the search ended
+    search_how: str = ""
+    #: one or two sentences: what is proven about the structures not listed
+    completeness_note: str = ""
+    #: every assumption the completeness statement holds under
+    assumptions: tuple[str, ...] = ()
+    #: reference spectra most similar to the observed one (plain dicts, best first)
+    reference_neighbours: tuple[dict, ...] = ()
 
     @property
     def dbe(self) -> int:
@@ -219,7 +243,7 @@ def solve(
         formula=formula, peaks=peaks.peaks, valences=dict(settings.valences),
         charged_nitrogen=settings.charged_nitrogen, constraints=cons, prior=prior,
         time_limit=settings.time_limit, pool_size=_pool_size(settings), keep=settings.keep,
-        workers=settings.workers, start=start,
+        workers=settings.workers, start=start, mode=settings.search, chains=settings.chains,
         progress=(lambda stage, n, elapsed, left: progress(n, elapsed)) if progress is not None else None,
     )
     outcome = run_search(problem)
@@ -227,29 +251,18 @@ def solve(
     ranked = sorted(outcome.scored, key=rank_key)[: settings.keep]
     status, cost_bound = outcome.status, outcome.cost_bound
     calibration = load_calibration()
-    candidates = _finalise(ranked, settings.top, calibration)
+    candidates = _finalise(ranked, settings.top, calibration, outcome.sources)
     margin = None
     if candidates and cost_bound is not None and rule is not None:
         margin = cost_bound - outcome.approximate_cost(candidates[0].smiles, rule)
     listed = listed_chance(status, margin, formula.heavy_atoms, calibration) if candidates else 0.0
     candidates = [replace(c, probability=listed * c.probability) for c in candidates]
     warnings = list(peaks.warnings)
-    if status == "stopped at the time limit":
-        warnings.append(
-            f"search stopped at the time limit ({settings.time_limit:g} s): the list is not "
-            f"exhaustive; calibrated probability that the answer is not listed: {1.0 - listed:.2f}"
-        )
-    elif status == "complete up to cost":
-        warnings.append(
-            f"fit-steered search: every structure not listed has an approximate (environment) cost "
-            f"of at least {cost_bound:.3f}; calibrated probability that the answer is not listed: "
-            f"{1.0 - listed:.2f}"
-        )
+    if status != "complete" and candidates:
+        warnings.append(f"the list is not exhaustive; calibrated probability that the answer is not listed: "
+                        f"{1.0 - listed:.2f}")
     if not candidates:
-        warnings.append(
-            "no structure fits these constraints; check the formula, the multiplicities, "
-            "solvent/impurity lines, or relax options (--allow-all)"
-        )
+        warnings.append(empty_result_warning(status, settings.time_limit))
     return SolveResult(
         formula=formula,
         peaks=peaks,
@@ -262,7 +275,34 @@ def solve(
         candidates=tuple(candidates),
         constraint_log=tuple(outcome.log),
         unlisted_probability=1.0 - listed,
+        search_how=how_sentence(outcome.strategies, outcome.ended, settings.time_limit),
+        completeness_note=completeness_sentence(status, cost_bound, formula.carbons, settings.time_limit),
+        assumptions=tuple(_assumptions(cons, settings, peaks)),
+        reference_neighbours=tuple(_neighbours(peaks, formula, settings)),
     )
+
+
+def _assumptions(cons: ConstraintSet, settings: SolveSettings, peaks: PeakList) -> list[str]:
+    return assumptions(
+        overlap=settings.symmetry.overlap, split=settings.symmetry.split, allow_all=settings.allow_all,
+        filter_names=[f.name for f in cons.filters if f.name.startswith("no ")],
+        valences=dict(settings.valences), charged_nitrogen=settings.charged_nitrogen,
+        environment_margin=settings.environment_margin if cons.rule is not None else None,
+        require=settings.require, forbid=settings.forbid, scaffold=settings.scaffold,
+        max_rings=settings.max_rings, min_ring_size=settings.min_ring_size, max_ring_size=settings.max_ring_size,
+        multiplicities=peaks.has_multiplicities,
+    )
+
+
+def _neighbours(peaks: PeakList, formula: Formula, settings: SolveSettings) -> list[dict]:
+    """The reference spectra most similar to the observed one (shipped index
+    plus the lab's own libraries)."""
+    if settings.neighbours <= 0:
+        return []
+    from .reference import load_reference_libraries, nearest_spectra
+
+    library = load_reference_libraries(settings.libraries, with_default=True) if settings.libraries else None
+    return [h.to_dict() for h in nearest_spectra(peaks, formula=formula, k=settings.neighbours, library=library)]
 
 
 def _pool_size(settings: SolveSettings) -> int:
@@ -273,7 +313,8 @@ def _pool_size(settings: SolveSettings) -> int:
     return int(min(5000, max(200, settings.time_limit * 0.3 / 0.004)))
 
 
-def _finalise(ranked: Sequence[ScoredStructure], top: int, calibration: Calibration) -> list[Candidate]:
+def _finalise(ranked: Sequence[ScoredStructure], top: int, calibration: Calibration,
+              sources: dict | None = None) -> list[Candidate]:
     """Candidates ordered by calibrated score, with their probabilities
     given that the answer is listed (rank/calibration.py)."""
     if not ranked:
@@ -305,6 +346,7 @@ def _finalise(ranked: Sequence[ScoredStructure], top: int, calibration: Calibrat
                 unfilled=s.assignment.unfilled,
                 prior=round(s.prior, 4),
                 fit_cost=round(s.score - s.prior, 4),
+                found_by=(sources or {}).get(s.smiles, ""),
             )
         )
     return out

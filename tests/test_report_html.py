@@ -79,10 +79,12 @@ def test_every_candidate_has_structure_and_spectrum_svg(data):
     svgs = _svgs(page)
     n = len(data["candidates"])
     assert n >= 2
-    assert len(svgs) == 3 * n  # small picture in the ranked table, numbered structure, stick spectrum
+    # small picture in the ranked table, numbered structure, stick spectrum; one per reference neighbour
+    assert len(svgs) == 3 * n + len(data.get("reference_neighbours") or [])
     for svg in svgs:
         ET.fromstring(svg)  # well-formed XML, or this raises
-    structures = [s for s in svgs if 'class="structure"' in s]
+    detail = page[page.index("<h2>Candidates in detail</h2>"):]
+    structures = [s for s in _svgs(detail) if 'class="structure"' in s]
     assert len(structures) == n
     for cand, svg in zip(data["candidates"], structures):
         carbons = sum(1 for a in Chem.MolFromSmiles(cand["smiles"]).GetAtoms() if a.GetSymbol() == "C")
@@ -91,7 +93,8 @@ def test_every_candidate_has_structure_and_spectrum_svg(data):
 
 
 def _ranked_section(page):
-    return page[page.index("<h2>Ranked candidates</h2>"):page.index("<h2>Inputs</h2>")]
+    end = page.find('<section class="neighbours">')
+    return page[page.index("<h2>Ranked candidates</h2>"):end if end > 0 else page.index("<h2>Inputs</h2>")]
 
 
 def test_ranked_table_has_one_structure_per_row(data):
@@ -165,6 +168,7 @@ def test_inputs_statement_and_cautions(data):
 
 def test_incomplete_search_is_said(data):
     cut = dict(data, complete=False)
+    cut["completeness"] = {"status": "stopped at the time limit", "cost_bound": None}  # a result without statements
     assert "cut short" in render_html(cut)
 
 
@@ -178,7 +182,7 @@ def test_provenance_is_shown_and_text_is_escaped(data):
 
 def test_top_limits_candidates(data):
     page = render_html(data, top=1)
-    assert len(_svgs(page)) == 3
+    assert len(_svgs(page)) == 3 + len(data.get("reference_neighbours") or [])
     with pytest.raises(InputError, match="top"):
         render_html(data, top=0)
 
@@ -246,7 +250,7 @@ def test_batch_sample_block_is_shown(data):
 
 
 def test_no_candidates_is_said(data):
-    page = render_html(dict(data, candidates=[]))
+    page = render_html(dict(data, candidates=[], reference_neighbours=[]))
     assert "No structure fits" in page and not _svgs(page)
 
 

@@ -42,6 +42,7 @@ from typing import Iterable, Sequence
 import numpy as np
 from rdkit import Chem, rdBase
 
+from ..datafiles import data_file
 from ..rank.cover import cover_cost
 
 __all__ = [
@@ -61,6 +62,7 @@ __all__ = [
 ]
 
 DEFAULT_TABLE_PATH = Path(__file__).resolve().parent.parent / "data" / "environments.json.gz"
+TABLE_NAME = "environments.json.gz"
 #: Quantiles kept per environment: 0.5 %, median, 99.5 %, quartiles, min, max.
 _QUANTILES = (0.005, 0.5, 0.995, 0.25, 0.75, 0.0, 1.0)
 #: Examples an environment needs before it may exclude anything (below
@@ -248,7 +250,7 @@ _CACHE: dict[str, EnvironmentTable] = {}
 
 def load_environment_table(path: Path | str | None = None) -> EnvironmentTable | None:
     """The shipped table (or one at ``path``); None when it is absent."""
-    p = Path(path) if path else DEFAULT_TABLE_PATH
+    p = Path(path) if path else data_file(TABLE_NAME)
     key = str(p)
     if key not in _CACHE:
         if not p.exists():

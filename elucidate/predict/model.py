@@ -69,7 +69,9 @@ def count_bucket(n: int) -> int:
 
 def default_table_path() -> Path:
     """Path of the table shipped inside the package."""
-    return Path(__file__).resolve().parents[1] / "data" / "shift_table.npz"
+    from ..datafiles import data_file
+
+    return data_file("shift_table.npz")
 
 
 class ShiftModel:

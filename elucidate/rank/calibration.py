@@ -94,7 +94,12 @@ _LOADED: dict[str, Calibration] = {}
 
 def load_calibration(path: str | Path | None = None) -> Calibration:
     """The shipped calibration (cached per path); defaults when the file is absent."""
-    p = Path(path) if path else DEFAULT_CALIBRATION_PATH
+    if path:
+        p = Path(path)
+    else:
+        from ..datafiles import data_file
+
+        p = data_file("calibration.json")
     key = str(p)
     if key not in _LOADED:
         if not p.is_file():

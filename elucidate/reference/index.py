@@ -680,7 +680,9 @@ class ReferenceIndex:
 
 def default_index_path() -> Path:
     """Path of the reference index shipped inside the package."""
-    return Path(__file__).resolve().parents[1] / "data" / "reference_spectra.npz"
+    from ..datafiles import data_file
+
+    return data_file("reference_spectra.npz")
 
 
 _DEFAULT: ReferenceIndex | None = None

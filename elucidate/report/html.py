@@ -632,10 +632,16 @@ def _search(data: dict) -> str:
     out = []
     complete = data.get("complete")
     comp = data.get("completeness") if isinstance(data.get("completeness"), dict) else {}
-    if complete is True:
+    status = comp.get("status")
+    css = "status-ok" if status in ("complete", "complete up to cost") else "status-cut"
+    if comp.get("how"):
+        out.append(f"<p>{_e(comp['how'])}</p>")
+    if comp.get("statement"):
+        out.append(f'<p class="{css}">{_e(comp["statement"])}</p>')
+    elif complete is True:
         out.append('<p class="status-ok">The search was exhaustive under the stated constraints: every '
                    "constitution consistent with them was generated and ranked.</p>")
-    elif comp.get("status") == "complete up to cost" and comp.get("cost_bound") is not None:
+    elif status == "complete up to cost" and comp.get("cost_bound") is not None:
         out.append('<p class="status-ok">The search was exhaustive up to an approximate cost of '
                    f"{_e(comp['cost_bound'])}: every structure not listed fits the lines worse than that by its "
                    "carbon environments (the approximate cost adds how rare each atom environment is and the "
@@ -645,6 +651,9 @@ def _search(data: dict) -> str:
                    "from this list.</p>")
     else:
         out.append('<p class="status-cut">Completeness of the search is not recorded in this result.</p>')
+    if comp.get("assumptions"):
+        out.append("<p>This holds under these assumptions:</p><ul>"
+                   + "".join(f"<li>{_e(a)}</li>" for a in comp["assumptions"]) + "</ul>")
     if data.get("unlisted_probability") is not None:
         out.append(f"<p>{_e(unlisted_sentence(data['unlisted_probability']))}</p>")
     facts = []
@@ -844,6 +853,25 @@ def _render_check(data: dict, title: str | None, footer: str) -> str:
     return _page(title, body, footer)
 
 
+def _empty(data: dict) -> str:
+    """Why no candidate is shown, without blaming the data for a search that ran out of time."""
+    comp = data.get("completeness") if isinstance(data.get("completeness"), dict) else {}
+    if comp.get("status") == "complete":
+        return ("<p>No structure fits the constraints: the search was exhaustive under the assumptions "
+                "listed under Search.</p>")
+    return ("<p>No structure was found before the search stopped; this does not mean that none fits "
+            "(see Search).</p>")
+
+
+def _neighbours(data: dict) -> str:
+    neighbours = data.get("reference_neighbours") or []
+    if not neighbours:
+        return ""
+    from .neighbours import render_neighbours_html
+
+    return render_neighbours_html(neighbours)
+
+
 def _search_warnings(data: dict) -> str:
     warnings = data.get("warnings") or []
     if not warnings:
@@ -958,8 +986,8 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None,
         f'<div class="caution" role="note"><strong>Caution.</strong> {_e(caution)}</div>',
         _sample(data),
         "<h2>Ranked candidates</h2>",
-        (_summary(cands, data.get("unlisted_probability")) if cands
-         else "<p>No structure fits these data and constraints.</p>"),
+        (_summary(cands, data.get("unlisted_probability")) if cands else _empty(data)),
+        _neighbours(data),
         "<h2>Inputs</h2>",
         _inputs(data),
         "<h2>Search</h2>",

@@ -22,6 +22,7 @@ from ..errors import InputError
 from ..pipeline import CAUTION, SolveResult
 from ..rank.ambiguity import ambiguity_notes
 from ..spectrum.trace import SpectrumTrace
+from ..search.statement import fit_equivalent
 from .runinfo import RunInfo
 
 __all__ = ["result_to_dict"]
@@ -31,6 +32,17 @@ def _num(x: float, nd: int = 2):
     if x is None or (isinstance(x, float) and not math.isfinite(x)):
         return None
     return round(float(x), nd)
+
+
+def _completeness(result: SolveResult) -> dict:
+    """Status and bound (numbers kept for tools) plus the statements a chemist reads."""
+    status, bound = result.completeness
+    out = {"status": status, "cost_bound": bound, "statement": result.completeness_note,
+           "how": result.search_how, "assumptions": list(result.assumptions)}
+    if bound is not None:
+        one, each = fit_equivalent(bound, result.formula.carbons)
+        out["bound_as_misfit"] = {"one_carbon_ppm": _num(one, 1), "every_carbon_ppm": _num(each, 2)}
+    return out
 
 
 def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
@@ -64,7 +76,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
         "formula": result.formula.hill,
         "dbe": result.dbe,
         "complete": result.complete,
-        "completeness": {"status": result.completeness[0], "cost_bound": result.completeness[1]},
+        "completeness": _completeness(result),
         "unlisted_probability": _num(result.unlisted_probability, 4),
         "candidates_generated": result.candidates_generated,
         "elapsed_s": _num(result.elapsed_s, 3),
@@ -102,6 +114,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
                 "overlapped_lines": c.overlaps,
                 "split_classes": c.splits,
                 "unfilled_lines": list(c.unfilled),
+                "found_by": c.found_by,
                 "assignment": [
                     {
                         "peak_index": e.peak_index,
@@ -120,6 +133,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
             for i, c in enumerate(result.candidates)
         ],
         "ambiguity": ambiguity_notes(result.candidates),
+        "reference_neighbours": [dict(n) for n in result.reference_neighbours],
         "caution": CAUTION,
         "peaks_provenance": list(result.peaks.provenance),
     }

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-__all__ = ["render_text", "run_lines", "unlisted_sentence"]
+__all__ = ["render_text", "run_lines", "unlisted_sentence", "search_statement_lines"]
 
 
 def run_lines(data: dict) -> list[str]:
@@ -32,7 +32,9 @@ def render_text(data: dict) -> str:
     if comp["status"] == "complete":
         status = "complete"
     elif comp["status"] == "complete up to cost":
-        status = f"complete up to approximate cost {comp['cost_bound']}"
+        status = "complete up to a misfit bound"
+    elif comp["status"] == "sampled":
+        status = "best found by sampling (not proven)"
     else:
         status = "INCOMPLETE (stopped at the time limit)"
     out.append(
@@ -92,22 +94,40 @@ def render_text(data: dict) -> str:
         out.append("warnings:")
         for w in data["warnings"]:
             out.append(f"  - {w}")
+    neighbours = data.get("reference_neighbours") or []
+    if neighbours:
+        from .neighbours import render_neighbours_text
+
+        out.append("")
+        out.append(render_neighbours_text(neighbours).rstrip("\n"))
     out.append("")
-    if comp["status"] == "complete":
-        out.append("The search was exhaustive under the stated constraints.")
-    elif comp["status"] == "complete up to cost":
-        out.append(
-            "The search was exhaustive up to an approximate cost of "
-            f"{comp['cost_bound']}: every structure not listed fits the lines worse than that "
-            "by its carbon environments."
-        )
-    else:
-        out.append("The search was cut short: structures may be missing from this list.")
+    out.extend(search_statement_lines(comp))
     unlisted = data.get("unlisted_probability")
     if unlisted is not None:
         out.append(unlisted_sentence(unlisted))
     out.append(data["caution"])
     return "\n".join(out) + "\n"
+
+
+def search_statement_lines(comp: dict) -> list[str]:
+    """How the search went and what it proves, from the ``completeness`` block
+    (older results without the statements get the short form)."""
+    out = []
+    if comp.get("how"):
+        out.append(comp["how"])
+    if comp.get("statement"):
+        out.append(comp["statement"])
+    elif comp["status"] == "complete":
+        out.append("The search was exhaustive under the stated constraints.")
+    elif comp["status"] == "complete up to cost":
+        out.append("The search was exhaustive up to an approximate cost of "
+                   f"{comp['cost_bound']}: every structure not listed fits the lines worse than that "
+                   "by its carbon environments.")
+    else:
+        out.append("The search was cut short: structures may be missing from this list.")
+    if comp.get("assumptions"):
+        out.append("This holds under these assumptions: " + "; ".join(comp["assumptions"]) + ".")
+    return out
 
 
 def unlisted_sentence(unlisted: float) -> str:

@@ -57,6 +57,20 @@ class SearchProblem:
     keep: int
     workers: int
     start: float = field(default_factory=time.monotonic)
+    #: which strategies run: "auto" (cost-bounded first, annealing when
+    #: they cannot finish), "bounded" (cost-bounded only) or "sampling"
+    #: (annealing only)
+    mode: str = "auto"
+    #: annealing chains to run at most (a work budget: a search that ends
+    #: by it, not by the time limit, is reproducible on any machine)
+    chains: int | None = None
+
+    #: reference library for neighbour starts (None: the shipped index)
+    library: object = None
+
+    @property
+    def sampling(self) -> bool:
+        return self.mode in ("auto", "sampling")
     progress: ProgressFn | None = None
     _last_progress: float = 0.0
 
@@ -135,6 +149,10 @@ class SearchOutcome:
     strategies: list[StrategyReport] = field(default_factory=list)
     #: why the search ended: "finished", "time limit" or "confident"
     ended: str = "finished"
+    #: SMILES -> the strategy that found the structure
+    sources: dict = field(default_factory=dict)
+    #: sampling rounds (for the early-stop model and diagnostics)
+    trace: list = field(default_factory=list)
 
     def approximate_cost(self, smiles: str, rule) -> float | None:
         """Approximate cost of a listed structure (None without the rule)."""

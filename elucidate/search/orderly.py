@@ -40,6 +40,8 @@ class PassState:
     valences: dict
     charged_nitrogen: bool
     cons: object  # ConstraintSet
+    problem: object = None  # the SearchProblem (scoring and annealing in workers)
+    weights: tuple[float, float] = (1.0, 1.0)  # calibrated (fit, prior) score weights
 
 
 @dataclass

@@ -30,11 +30,13 @@ import time
 
 from ..generate import enumerate_isomers
 from ..generate.atomtypes import type_distributions
+from ..rank.calibration import load_calibration
 from ..rank.scoring import ScoredStructure
 from .base import Proof, SearchOutcome, SearchProblem, StrategyReport, rounded_bound
 from .orderly import BOUND_GROWTH, INITIAL_BOUND, PassOutcome, PassState, run_pass
 from .plans import SCORE_S, plan_shard
 from .pool import score_pool
+from .sampling import sample_structures
 from .workers import WorkerPool, worker_count
 
 __all__ = ["run_search", "rank_key"]
@@ -47,6 +49,9 @@ FIRST_PASS_SHARE = 0.15
 #: Share of the time limit the steered strategies may use for generation
 #: (the rest is reserved for scoring the pool).
 GENERATION_SHARE = 0.7
+#: With sampling on, the plan search hands over to annealing at this share
+#: of the time limit.
+PLAN_SHARE = 0.25
 
 
 def rank_key(item: ScoredStructure):
@@ -59,9 +64,35 @@ def run_search(problem: SearchProblem) -> SearchOutcome:
     formula = problem.formula
     all_dists = sum(1 for _ in type_distributions(formula, problem.valences,
                                                   charged_nitrogen=problem.charged_nitrogen))
+    if problem.mode == "sampling":
+        return _sampling_only(problem, all_dists)
     if not problem.steered:
         return _exhaustive_scan(problem, all_dists)
     return _steered(problem, all_dists)
+
+
+def _sampling_only(problem: SearchProblem, all_dists: int) -> SearchOutcome:
+    """Annealing alone, from reference-neighbour and random starts (no proof)."""
+    cons = problem.constraints
+    cal = load_calibration()
+    state = PassState(problem.formula, problem.valences, problem.charged_nitrogen, cons, problem,
+                      (cal.fit_weight, cal.prior_weight))
+    workers = worker_count(problem.workers)
+    executor = WorkerPool(state, workers, problem.pool_size) if workers > 1 else None
+    reports: list[StrategyReport] = []
+    try:
+        sampled = sample_structures(problem, state, executor, {}, reports)
+    finally:
+        if executor is not None:
+            executor.close()
+    scored = sorted(sampled.scored, key=rank_key)
+    n_dists = sum(1 for _ in type_distributions(problem.formula, problem.valences,
+                                                charged_nitrogen=problem.charged_nitrogen, accept=cons.accept))
+    log = [("atom-type distributions (DEPT H counts)", all_dists, n_dists),
+           ("structures visited by sampling (annealing chains)", sampled.visited, len(scored))]
+    status = "sampled" if scored else "stopped at the time limit"
+    return SearchOutcome(scored, status, None, sampled.visited, log, {}, reports, sampled.ended,
+                         {s.smiles: "annealing" for s in scored}, sampled.trace)
 
 
 def _base_log(problem: SearchProblem, all_dists: int, last: PassOutcome) -> list:
@@ -100,7 +131,8 @@ def _exhaustive_scan(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     report = StrategyReport("exhaustive generation", len(found), time.monotonic() - t0,
                             "every constitution, each scored" if run.complete else "cut by the time limit")
     return SearchOutcome(scored, status, None, len(found), _base_log(problem, all_dists, last),
-                         {}, [report], "finished" if run.complete else "time limit")
+                         {}, [report], "finished" if run.complete else "time limit",
+                         {s.smiles: "exhaustive generation" for s in scored})
 
 
 def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
@@ -112,7 +144,9 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     gen_deadline = start + problem.time_limit * GENERATION_SHARE
     bound = INITIAL_BOUND
     workers = worker_count(problem.workers)
-    state = PassState(problem.formula, problem.valences, problem.charged_nitrogen, cons)
+    cal = load_calibration()
+    state = PassState(problem.formula, problem.valences, problem.charged_nitrogen, cons, problem,
+                      (cal.fit_weight, cal.prior_weight))
     executor = WorkerPool(state, workers, pool_size) if workers > 1 else None
     orderly_deadline = start + (gen_deadline - start) * ORDERLY_SHARE
     first_pass_deadline = start + (gen_deadline - start) * min(FIRST_PASS_SHARE, ORDERLY_SHARE)
@@ -124,6 +158,7 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     plan_runs = None  # outcome of the plan search, when it ran
     exhausted = False  # the whole constrained space was searched
     reports: list[StrategyReport] = []
+    sampled = None
     t0 = time.monotonic()
     try:
         while True:
@@ -156,11 +191,21 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
             # which proves its own bound whatever time is left, running on
             # until what remains is the time to score the pool it finds.
             t1 = time.monotonic()
-            plan_deadline = max(gen_deadline, start + problem.time_limit - 1.0 - SCORE_S * len(found))
+            if problem.sampling:
+                # the plan search hands over to sampling at this point
+                plan_deadline = start + problem.time_limit * PLAN_SHARE
+            else:
+                plan_deadline = max(gen_deadline, start + problem.time_limit - 1.0 - SCORE_S * len(found))
             plan_runs = (executor.run_plans(pool_size, plan_deadline) if executor
                          else plan_shard(state, 0, 1, pool_size, plan_deadline, False))
             reports.append(StrategyReport("environment plans", len(plan_runs.found), time.monotonic() - t1,
                                           f"{plan_runs.plans} plans, {plan_runs.solves} CP-SAT solves"))
+            if problem.sampling:
+                merged = dict(found)
+                for smi, (cost, mol) in plan_runs.found.items():
+                    if smi not in merged or cost < merged[smi][0]:
+                        merged[smi] = (cost, mol)
+                sampled = sample_structures(problem, state, executor, merged, reports)
     finally:
         if executor is not None:
             executor.close()
@@ -182,19 +227,63 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     if dropped_min < math.inf:
         # structures let go during the passes cost at least this
         proof = Proof.after_dropping(proof, dropped_min)
-    scored, proof, n_scored = score_pool(problem, found, proof)
-    reports.append(StrategyReport("full scoring of the cheapest structures", n_scored, 0.0))
+    t2 = time.monotonic()
+    already = sampled.scored_pool if sampled is not None else {}
+    scored, proof, n_scored, pool_cut = score_pool(problem, found, proof, already)
+    reports.append(StrategyReport("full scoring of the cheapest structures", n_scored, time.monotonic() - t2))
+    if sampled is not None:
+        scored = _merge_scored(scored, sampled.scored)
     if proof.exhausted:
         status, cost_bound = "complete", None
     elif proof.bound is not None:
         status, cost_bound = "complete up to cost", rounded_bound(proof.bound)
     else:
         status, cost_bound = "stopped at the time limit", None
+    if sampled is not None and sampled.scored and status != "complete":
+        best = min(scored, key=rank_key)
+        if best.smiles in sampled.found_by_sampling and best.smiles not in _cheaper_than(found, proof):
+            # the best structure lies beyond what the cost-bounded search proved
+            status = "sampled"
     log = _base_log(problem, all_dists, runs[-1])
     log.append((f"approximate-cost pool (best {pool_size}; {len(runs)} deepening passes)",
                 n_found, min(n_found, pool_size)))
     if plan_runs is not None:
         log.append((f"environment plans in increasing cost (CP-SAT, {plan_runs.solves} solves)",
                     plan_runs.plans, len(plan_runs.found)))
-    ended = "finished" if status == "complete" else "time limit"
-    return SearchOutcome(scored, status, cost_bound, n_found, log, found, reports, ended)
+    if sampled is not None:
+        log.append(("structures visited by sampling (annealing chains)", sampled.visited, len(sampled.scored)))
+        n_found += sampled.visited
+    generation_finished = exhausted or (proven_bound is not None and n_found >= pool_size)
+    if plan_runs is not None:
+        generation_finished = plan_runs.exhausted or len(plan_runs.found) >= pool_size
+    ended = "finished" if generation_finished and not pool_cut else "time limit"
+    if sampled is not None:
+        ended = sampled.ended
+    sources = {}
+    plan_found = plan_runs.found if plan_runs is not None else {}
+    for item in scored:
+        if sampled is not None and item.smiles in sampled.found_by_sampling:
+            sources[item.smiles] = "annealing"
+        elif item.smiles in plan_found:
+            sources[item.smiles] = "environment plans"
+        else:
+            sources[item.smiles] = "orderly generation"
+    return SearchOutcome(scored, status, cost_bound, n_found, log, found, reports, ended, sources,
+                         sampled.trace if sampled is not None else [])
+
+
+def _merge_scored(a: list[ScoredStructure], b: list[ScoredStructure]) -> list[ScoredStructure]:
+    """Union by SMILES (first occurrence wins), deterministic order."""
+    out: dict[str, ScoredStructure] = {}
+    for item in list(a) + list(b):
+        out.setdefault(item.smiles, item)
+    return sorted(out.values(), key=rank_key)
+
+
+def _cheaper_than(found: dict, proof: Proof) -> set[str]:
+    """Structures inside the proven region (approximate cost below the bound)."""
+    if proof.exhausted:
+        return set(found)
+    if proof.bound is None:
+        return set()
+    return {smi for smi, (cost, _m) in found.items() if cost < proof.bound}

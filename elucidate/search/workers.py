@@ -16,9 +16,11 @@ from rdkit import Chem
 from .orderly import PassOutcome, PassState, run_pass
 from .plans import plan_shard
 
-__all__ = ["WorkerPool", "merge_found", "worker_count"]
+__all__ = ["WorkerPool", "merge_found", "worker_count", "run_local"]
 
 _FORK_STATE: PassState | None = None
+#: per-process memory of a worker (e.g. the annealing evaluator and its cache)
+_LOCAL: dict = {}
 
 
 def _pass_in_child(args) -> PassOutcome:
@@ -33,7 +35,7 @@ def _plan_in_child(args):
 
 def _call_in_child(args):
     fn, payload = args
-    return fn(_FORK_STATE, payload)
+    return fn(_FORK_STATE, _LOCAL, payload)
 
 
 class WorkerPool:
@@ -67,8 +69,10 @@ class WorkerPool:
                           sum(p.plans for p in parts), sum(p.solves for p in parts))
 
     def map(self, fn, payloads):
-        """``fn(state, payload)`` for each payload, in the processes, results in order."""
-        return self.pool.map(_call_in_child, [(fn, p) for p in payloads])
+        """``fn(state, local, payload)`` for each payload, in the processes
+        (one payload at a time to whichever is free), results in order;
+        ``local`` is the process's own memory, kept between calls."""
+        return self.pool.map(_call_in_child, [(fn, p) for p in payloads], chunksize=1)
 
     def close(self):
         self.pool.terminate()
@@ -92,3 +96,11 @@ def worker_count(requested: int) -> int:
     if multiprocessing.parent_process() is not None:
         return 1
     return max(1, requested)
+
+
+def run_local(state, fn, payloads):
+    """:meth:`WorkerPool.map` in this process (one worker)."""
+    return [fn(state, _LOCAL_PARENT, p) for p in payloads]
+
+
+_LOCAL_PARENT: dict = {}
