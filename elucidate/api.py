@@ -44,6 +44,29 @@ def _tuple_of_str(value, name: str) -> tuple[str, ...]:
     return items
 
 
+def _checked_solvent(solvent):
+    """The ``solvent`` argument, validated as the CLI's ``--solvent`` is.
+
+    ``None`` keeps every line; any other value must name a known solvent
+    (:func:`elucidate.spectrum.solvents.resolve_solvent`).  An empty name is
+    an error rather than "no solvent", so a blank field from a form or a
+    spreadsheet is never silently taken to mean "keep the solvent lines".
+    """
+    if solvent is None:
+        return None
+    from .spectrum.solvents import resolve_solvent
+
+    if not isinstance(solvent, str):
+        raise InputError(f"solvent must be a solvent name such as 'CDCl3' (or None to keep every line), "
+                         f"got {type(solvent).__name__} {solvent!r}")
+    try:
+        resolve_solvent(solvent)
+    except InputError as exc:
+        hint = "; or leave solvent=None to keep every line" if not solvent.strip() else ""
+        raise InputError(f"solvent={solvent!r}: {exc}{hint}") from None
+    return solvent
+
+
 def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.0, top: int = 10,
           require=(), forbid=(), scaffold: str | None = None, valences: dict | None = None,
           progress=None, **options):
@@ -56,7 +79,10 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
     peaks : str, path or PeakList
         Peak text (``"171.1 C, 60.4 CH2"``), a peak/JCAMP-DX file or a PeakList.
     solvent : str, optional
-        Deuterated solvent whose lines are dropped (e.g. ``"CDCl3"``).
+        Deuterated solvent whose lines are dropped (e.g. ``"CDCl3"``; common
+        names such as ``"dmso"`` work, ``"none"`` keeps every line).  An
+        empty or unknown name raises :class:`~elucidate.errors.InputError`,
+        as ``--solvent`` does on the command line.
     time_limit : float
         Seconds for the search; an incomplete search is flagged.
     top : int
@@ -97,6 +123,7 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
             if not v or not all(isinstance(x, int) and x > 0 for x in v):
                 raise InputError(f"valences[{el!r}] must be positive whole numbers, got {valences[el]!r}")
             vals[el] = v
+    solvent = _checked_solvent(solvent)
     if not isinstance(top, int) or isinstance(top, bool):
         raise InputError(f"top must be a whole number, got {top!r}")
     if not isinstance(time_limit, (int, float)) or isinstance(time_limit, bool):
@@ -112,6 +139,8 @@ def check(smiles, peaks, *, formula=None, solvent: str | None = None, time_limit
           alternatives: int = 5, search: bool = True, allow_all: bool = False):
     """Does a peak list fit the expected structure?  See :func:`elucidate.workflows.check.check_structure`.
 
+    ``solvent`` is checked as in :func:`solve` (an empty or unknown name is an error).
+
     Returns
     -------
     elucidate.workflows.check.CheckResult
@@ -120,6 +149,7 @@ def check(smiles, peaks, *, formula=None, solvent: str | None = None, time_limit
     """
     from .workflows.check import check_structure
 
+    solvent = _checked_solvent(solvent)
     return check_structure(smiles, peaks, formula=formula, solvent=solvent, time_limit=time_limit,
                            alternatives=alternatives, search=search, allow_all=allow_all)
 
@@ -134,6 +164,8 @@ def predict(smiles):
     Returns
     -------
     tuple of elucidate.predict.AtomShift
+        One per carbon atom; empty for a molecule without carbon (it has no
+        13C lines).
     """
     from rdkit import Chem
 

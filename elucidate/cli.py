@@ -190,9 +190,11 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               "as molfile records with NMReDATA tags).")
 @click.option("--output", "-o", default=None, help="Write to this file instead of stdout.")
 @click.option("--dept135", default=None, metavar="FILE",
-              help="DEPT-135 spectrum (JCAMP-DX) of the sample; --peaks must then be the 13C spectrum file.")
+              help="DEPT-135 spectrum (JCAMP-DX) of the sample; --peaks must then be the 13C spectrum file. "
+                   "A file whose header names another DEPT experiment is refused.")
 @click.option("--dept90", default=None, metavar="FILE",
-              help="DEPT-90 spectrum (JCAMP-DX) of the sample; --peaks must then be the 13C spectrum file.")
+              help="DEPT-90 spectrum (JCAMP-DX) of the sample; --peaks must then be the 13C spectrum file. "
+                   "A file whose header names another DEPT experiment is refused.")
 @_structure_options
 @click.option("--allow-all", is_flag=True,
               help="Keep implausible motifs (enols, gem-diols, small-ring triple bonds ...).")
@@ -344,6 +346,12 @@ def predict(smiles, input_file, fmt):
 
     Atom indices follow the SMILES as given.
 
+    A molecule without carbon (water, an ammonium salt) has no 13C lines:
+    it is listed with the note "no carbon atoms: nothing to predict" (JSON:
+    an empty "atoms" list and a "note"), and the others are predicted as
+    usual.  When no molecule given has a carbon atom, that is an error
+    (exit 2).
+
     Example: elucidate predict "CC(=O)OCC" --format json
     """
     from .predict import predict_smiles
@@ -359,19 +367,33 @@ def predict(smiles, input_file, fmt):
         raise InputError("give at least one SMILES argument or --input FILE")
     results = []
     for smi in items:
-        atoms = predict_smiles(smi)
-        results.append({
+        atoms = predict_smiles(smi)  # one entry per carbon atom
+        r = {
             "smiles": smi,
             "atoms": [{"index": a.index, "element": a.element, "hydrogens": a.hydrogens,
                        "shift": a.shift, "sigma": a.sigma} for a in atoms],
-        })
+        }
+        if not atoms:
+            r["note"] = _NO_CARBON_NOTE
+        results.append(r)
+    if all(not r["atoms"] for r in results):
+        names = [r["smiles"] for r in results]
+        shown = ", ".join(names[:3]) + (f" and {len(names) - 3} more" if len(names) > 3 else "")
+        which = f"{shown} has no" if len(names) == 1 else f"none of {shown} has a"
+        raise InputError(f"{which} carbon atom: nothing to predict (13C shifts need carbon); "
+                         "check that the SMILES is the intended molecule")
     if fmt == "json":
         click.echo(json.dumps(results, indent=1))
         return
     for r in results:
         click.echo(r["smiles"])
+        if "note" in r:
+            click.echo(f"  {r['note']}")
         for a in r["atoms"]:
             click.echo(f"  C{a['index']:<4} H{a['hydrogens']}  {a['shift']:7.2f} ppm  ± {a['sigma']:.1f}")
+
+
+_NO_CARBON_NOTE = "no carbon atoms: nothing to predict"
 
 
 # ----------------------------------------------------------------- bench

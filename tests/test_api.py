@@ -94,3 +94,22 @@ def test_to_dict_records_sample_names_time_and_spectrum():
         elucidate.to_dict(result, run_at=datetime(2026, 1, 15))
     with pytest.raises(elucidate.InputError, match="solve results only"):
         elucidate.to_dict(elucidate.check("CCC(C)=O", BUTANONE, search=False), sample_id="X")
+
+
+@pytest.mark.parametrize("call,fragment", [
+    (lambda: elucidate.solve("C4H8O2", ETHYL_ACETATE, solvent=""), "solvent=''"),
+    (lambda: elucidate.solve("C4H8O2", ETHYL_ACETATE, solvent="   "), "solvent name is empty"),
+    (lambda: elucidate.solve("C4H8O2", ETHYL_ACETATE, solvent="chloroformx"), "known: "),
+    (lambda: elucidate.solve("C4H8O2", ETHYL_ACETATE, solvent=77.16), "solvent must be a solvent name"),
+    (lambda: elucidate.check("CCC(C)=O", BUTANONE, solvent=""), "solvent=''"),
+], ids=["solve-empty", "solve-blank", "solve-unknown", "solve-number", "check-empty"])
+def test_api_solvent_validated_like_the_cli(call, fragment):
+    # The CLI rejects --solvent "" (tests/test_cli_errors.py); the API must
+    # not quietly treat an empty name as "keep the solvent lines".
+    with pytest.raises(elucidate.InputError) as err:
+        call()
+    msg = str(err.value)
+    assert fragment in msg, msg
+    assert "cdcl3" in msg.lower() or "None" in msg, msg  # says how to fix it
+    cli = CliRunner().invoke(main, ["solve", "-f", "C4H8O2", "-p", ETHYL_ACETATE, "--solvent", ""])
+    assert cli.exit_code == 2 and "solvent" in cli.stderr

@@ -13,6 +13,7 @@ import pytest
 from click.testing import CliRunner
 
 from elucidate.cli import main
+from elucidate.spectrum.jcamp_write import format_jcamp_peak_table
 
 OK_PEAKS = "171.1 C, 60.5 CH2, 21.0 CH3, 14.2 CH3"
 
@@ -44,6 +45,8 @@ FILES = {
     "cases.jsonl": json.dumps({"id": "c1", "formula": "C4H8O2", "answer": "CCOC(C)=O",
                                "peaks": [{"shift": 171.1, "mult": "C", "count": 1}]}) + "\n",
     "sheet_no_peaks.csv": "id,formula\nQC-1,C4H8O2\n",
+    "c13_table.jdx": format_jcamp_peak_table([171.1, 60.5, 21.0, 14.2], title="QC-0188 13C"),
+    "labelled_dept90.jdx": format_jcamp_peak_table([60.5, 21.0, 14.2], [-1, 1, 1], title="QC-0188 DEPT-90"),
 }
 
 BAD = [
@@ -131,6 +134,10 @@ BAD = [
     ("bad SMILES", ["predict", "C1CC"], "SMILES"),
     ("predict without input", ["predict"], "SMILES"),
     ("predict input missing", ["predict", "--input", "no_such_file.smi"], "no_such_file"),
+    ("DEPT-90 file given as --dept135", ["solve", "--formula", "C4H8O2", "--peaks", "{tmp}/c13_table.jdx",
+                                         "--dept135", "{tmp}/labelled_dept90.jdx"], "DEPT-90 spectrum by its header"),
+    ("predict water (no carbon)", ["predict", "O"], "O has no carbon atom"),
+    ("predict only carbon-free molecules", ["predict", "[NH4+]", "O"], "none of [NH4+], O has a carbon"),
     # report
     ("report file missing", ["report", "{tmp}/no_such_result.json"], "not found"),
     ("report on a non-JSON file", ["report", "{tmp}/not_json.json"], "is not JSON"),

@@ -77,3 +77,18 @@ _SMALL = [
 )
 def test_small_formula_counts(formula, expected, source):
     assert _run_count(formula) == expected, source
+
+
+def test_large_alkane_under_a_time_limit_gives_a_lower_bound():
+    # C50H102 used to end in a RecursionError (50 atoms nest ~1,300 frames in
+    # a recursive row search).  Under a time limit the count is a lower
+    # bound, said so on stderr.  The full number (OEIS A000602) is far out
+    # of reach in a second, so only the form of the answer is checked.
+    result = CliRunner().invoke(
+        cli.main, ["isomers", "--formula", "C50H102", "--count", "--time-limit", "1"]
+    )
+    assert result.exit_code == 0, (result.output, result.exception)
+    assert "Traceback" not in result.output
+    assert "stopped at the time limit" in result.stderr
+    assert "lower bound" in result.stderr
+    assert re.fullmatch(r"\d+", result.stdout.strip()), result.stdout

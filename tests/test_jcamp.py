@@ -507,13 +507,69 @@ def test_compound_file_with_dept_blocks(tmp_path, dept_files):
     assert any("compound file" in w for w in pl.provenance)
 
 
-def test_swapped_dept_files_are_flagged(tmp_path):
+# DEPT sign rules (common practice, no source): DEPT-135 CH/CH3 up, CH2
+# down; DEPT-90 CH only, up.  Carbons: ethyl propanoate-like invented lines.
+_LINES = [174.5, 60.4, 27.6, 14.2, 9.1]
+_D135 = ([60.4, 27.6, 14.2, 9.1], [-1, -1, 1, 1])
+
+
+def _tables(tmp_path, title, shifts_heights, pulse=None):
     c13 = tmp_path / "c.jdx"
-    c13.write_text(format_jcamp_peak_table([60.4, 14.2]))
+    c13.write_text(format_jcamp_peak_table(_LINES))
     d = tmp_path / "d.jdx"
-    d.write_text(format_jcamp_peak_table([60.4, 14.2], [-1, 1], title="DEPT-90 run"))
+    text = format_jcamp_peak_table(*shifts_heights, title=title)
+    if pulse:
+        text = text.replace("##PEAK TABLE", f"##$PULPROG=<{pulse}>\n##PEAK TABLE", 1)
+    d.write_text(text)
+    return c13, d
+
+
+@pytest.mark.parametrize("title, pulse, given_as, named", [
+    ("DEPT-90 run", None, "dept135_path", "DEPT-90"),
+    ("sample 7 dept90", None, "dept135_path", "DEPT-90"),
+    ("run 12", "dept90", "dept135_path", "DEPT-90"),  # pulse-sequence record only
+    ("QC-0042 DEPT 135", None, "dept90_path", "DEPT-135"),
+    ("run 12", "dept135", "dept90_path", "DEPT-135"),
+    ("QC-0042 DEPT_45", None, "dept135_path", "DEPT-45"),
+])
+def test_dept_file_whose_header_names_another_experiment_is_refused(tmp_path, title, pulse, given_as, named):
+    c13, d = _tables(tmp_path, title, _D135, pulse)
+    with pytest.raises(InputError) as info:
+        peaks_from_jcamp(c13, **{given_as: d})
+    msg = str(info.value)
+    assert "\n" not in msg and f"is a {named} spectrum by its header" in msg, msg
+    assert str(d) in msg and "check the files" in msg
+
+
+@pytest.mark.parametrize("title, pulse", [
+    ("run 12", None),                           # silent header: accepted as given
+    ("DEPT-135 run", None),                      # agrees
+    ("run 12", "dept135"),                       # agrees
+    ("DEPT-135 and DEPT-90 pair", None),         # names both: no guess
+])
+def test_dept135_header_silent_agreeing_or_ambiguous_is_accepted(tmp_path, title, pulse):
+    c13, d = _tables(tmp_path, title, _D135, pulse)
     pl = peaks_from_jcamp(c13, dept135_path=d)
-    assert any("labelled DEPT90" in w for w in pl.warnings)
+    assert [p.multiplicity for p in pl.peaks] == ["C", "CH2", "CH2", "?", "?"]
+    assert not any("negative" in w for w in pl.warnings)
+
+
+def test_signs_that_do_not_fit_the_experiment_give_warnings_not_errors(tmp_path):
+    # A DEPT-135 given as DEPT-90 (silent header): strong negative CH2 lines.
+    c13, d = _tables(tmp_path, "run 12", _D135)
+    pl = peaks_from_jcamp(c13, dept90_path=d)
+    text = " | ".join(pl.warnings)
+    assert "DEPT-90 spectrum" in text and "strong negative lines (60.40, 27.60 ppm)" in text
+    # A DEPT-90 given as DEPT-135: positive CH lines only, so nothing reads as CH2.
+    c13, d = _tables(tmp_path, "run 13", ([60.4], [1.0]))
+    pl = peaks_from_jcamp(c13, dept135_path=d)
+    assert any("shows no negative (CH2) line" in w and "DEPT-90 or DEPT-45" in w for w in pl.warnings)
+
+
+def test_regular_dept_pair_gives_no_sign_warning(dept_files):
+    c13, d135, d90 = dept_files
+    pl = peaks_from_jcamp(c13, d135, d90)
+    assert not any("negative" in w for w in pl.warnings), pl.warnings
 
 
 def test_pulse_sequence_record():

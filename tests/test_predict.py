@@ -169,3 +169,25 @@ def test_speed_generous():
             n += 1
     rate = n / (time.perf_counter() - t0)
     assert rate >= 300, rate
+
+
+def test_cli_molecule_without_carbon_gets_a_note_not_silence():
+    # Water and the ammonium ion have no carbon, hence no 13C lines
+    # (common practice, no source); listed with a note, the others predicted.
+    import json
+
+    from click.testing import CliRunner
+
+    from elucidate.cli import main
+
+    text = CliRunner().invoke(main, ["predict", "O", "CCO", "[NH4+]"])
+    assert text.exit_code == 0, text.output
+    lines = text.stdout.splitlines()
+    assert lines[0] == "O" and lines[1].strip() == "no carbon atoms: nothing to predict"
+    assert lines[2] == "CCO" and len([ln for ln in lines if ln.strip().startswith("C0")]) == 1
+    assert lines[-2:] == ["[NH4+]", "  no carbon atoms: nothing to predict"]
+    out = CliRunner().invoke(main, ["predict", "[NH4+]", "CCO", "--format", "json"])
+    assert out.exit_code == 0, out.output
+    rows = json.loads(out.stdout)
+    assert rows[0] == {"smiles": "[NH4+]", "atoms": [], "note": "no carbon atoms: nothing to predict"}
+    assert "note" not in rows[1] and [a["index"] for a in rows[1]["atoms"]] == [0, 1]

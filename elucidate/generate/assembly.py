@@ -31,7 +31,9 @@ choices.  Remaining duplicates (automorphisms the two rules do not see) are
 removed downstream by canonical SMILES.
 
 The search checks a deadline every few thousand nodes and raises
-:class:`SearchInterrupted` when it passes.
+:class:`SearchInterrupted` when it passes.  It keeps its own stack (no
+recursion), so the number of atoms is limited by time, not by Python's
+recursion limit.
 """
 
 from __future__ import annotations
@@ -101,87 +103,142 @@ def bond_matrices(
         mo[a][a] = 0
     m = [[0] * n for _ in range(n)]
     rem = list(degrees)
-    same0 = [False] + [types[k] == types[k - 1] for k in range(1, n)]
-    counter = [0]
+
+    # Depth-first search with an explicit stack.  A recursive version nests
+    # one frame per matrix cell (about n^2 / 2 of them) and overflows
+    # Python's recursion limit near 45 heavy atoms; here the state a recursion
+    # would keep in its frames lives in per-row and per-cell arrays, so the
+    # depth costs memory only (O(n^2) integers).  Matrices come out in the
+    # same order as from the recursive formulation.
+    same_r: list[list[bool]] = [[]] * n  # rule-1 cell flags when row i starts
+    comp_r: list[list[int]] = [[]] * n  # component label per atom when row i starts
+    caps_r: list[list[int]] = [[]] * n  # caps[j]: most bonds row i can put in columns >= j
+    tie_r = [False] * n  # rule 2 binds rows i - 1 and i
+    saved_r = [0] * n  # rem[i] before row i closed
+    lo_a = [[0] * n for _ in range(n)]  # smallest value cell (i, k) may take
+    left_a = [[0] * n for _ in range(n)]  # bonds row i had left on entering column k
+    tie_a = [[False] * n for _ in range(n)]  # rule-2 tie open on entering column k
+    same_r[0] = [False] + [types[k] == types[k - 1] for k in range(1, n)]
+    comp_r[0] = list(range(n))
+    nodes = 0
     check_every = 4096
 
-    def tick():
-        counter[0] += 1
-        if deadline is not None and counter[0] % check_every == 0 and time.monotonic() > deadline:
-            raise SearchInterrupted
-
-    def do_row(i: int, same: list[bool], comp: list[int], tie_prev: bool) -> Iterator[None]:
-        # ``tie_prev``: atoms i-1 and i were in one cell when row i-1 started,
-        # so row i must not exceed row i-1 lexicographically (rule 2).
-        tick()
-        if i == n - 1:
-            if rem[i] == 0 and (row_check is None or row_check(i, m)):
-                yield None
-            return
-        mi = m[i]
-        moi = mo[i]
-        caps = [0] * (n + 1)
-        for j in range(n - 1, i, -1):
-            c = rem[j]
-            if c > 3:
-                c = 3
-            if moi[j] < c:
-                c = moi[j]
-            caps[j] = caps[j + 1] + c
-        if rem[i] > caps[i + 1]:
-            return
-        others_after = 3 * (n - i - 2)
-        prev_row = m[i - 1] if tie_prev else None
-
-        def do_col(k: int, left: int, tie: bool) -> Iterator[None]:
-            if k == n:
-                if left == 0:
-                    yield from finish_row()
+    ENTER, FILL, BACK, UP = 0, 1, 2, 3
+    state = ENTER
+    i = k = left = 0
+    tie = False
+    mi = caps = same = prev_row = lo_i = left_i = tie_i = None
+    while True:
+        if state == ENTER:
+            # Row i starts: atoms < i are closed.
+            nodes += 1
+            if deadline is not None and nodes % check_every == 0 and time.monotonic() > deadline:
+                raise SearchInterrupted
+            if i == n - 1:
+                if rem[i] == 0 and (row_check is None or row_check(i, m)):
+                    yield m
+                state = UP
+                continue
+            moi = mo[i]
+            caps = [0] * (n + 1)
+            for j in range(n - 1, i, -1):
+                c = rem[j]
+                if c > 3:
+                    c = 3
+                if moi[j] < c:
+                    c = moi[j]
+                caps[j] = caps[j + 1] + c
+            if rem[i] > caps[i + 1]:
+                state = UP
+                continue
+            caps_r[i] = caps
+            mi, same, lo_i, left_i, tie_i = m[i], same_r[i], lo_a[i], left_a[i], tie_a[i]
+            prev_row = m[i - 1] if tie_r[i] else None
+            k, left, tie = i + 1, rem[i], tie_r[i]
+            state = FILL
+        elif state == UP:
+            # Row i is exhausted: revise the last cell of row i - 1.
+            if i == 0:
                 return
-            hi = caps[k] - caps[k + 1]
-            if left < hi:
-                hi = left
-            if k > i + 1 and same[k] and mi[k - 1] < hi:
-                hi = mi[k - 1]
-            if tie and prev_row[k] < hi:
-                hi = prev_row[k]
-            lo = left - caps[k + 1]
-            if lo < 0:
-                lo = 0
-            rk = rem[k]
-            if rk - lo > others_after:
-                lo = rk - others_after
-            for b in range(hi, lo - 1, -1):
-                mi[k] = b
-                m[k][i] = b
-                rem[k] = rk - b
-                yield from do_col(k + 1, left - b, tie and b == prev_row[k])
-            mi[k] = 0
-            m[k][i] = 0
-            rem[k] = rk
-
-        def finish_row() -> Iterator[None]:
-            saved = rem[i]
+            i -= 1
+            rem[i] = saved_r[i]
+            mi, caps, same, lo_i, left_i, tie_i = m[i], caps_r[i], same_r[i], lo_a[i], left_a[i], tie_a[i]
+            prev_row = m[i - 1] if tie_r[i] else None
+            k = n - 1
+            state = BACK
+        elif state == BACK:
+            # Lower the last cell (i, k) that can go lower, clearing those after it.
+            state = UP
+            while k > i:
+                b = mi[k]
+                if b > lo_i[k]:
+                    b -= 1
+                    mi[k] = b
+                    m[k][i] = b
+                    rem[k] += 1
+                    left = left_i[k] - b
+                    tie = tie_i[k] and b == prev_row[k]
+                    k += 1
+                    state = FILL
+                    break
+                mi[k] = 0
+                m[k][i] = 0
+                rem[k] += b
+                k -= 1
+        else:
+            # FILL: give columns k.. of row i their largest allowed values.
+            others_after = 3 * (n - i - 2)
+            while k < n:
+                hi = caps[k] - caps[k + 1]
+                if left < hi:
+                    hi = left
+                if k > i + 1 and same[k] and mi[k - 1] < hi:
+                    hi = mi[k - 1]
+                if tie and prev_row[k] < hi:
+                    hi = prev_row[k]
+                lo = left - caps[k + 1]
+                if lo < 0:
+                    lo = 0
+                rk = rem[k]
+                if rk - lo > others_after:
+                    lo = rk - others_after
+                if hi < lo:
+                    break
+                lo_i[k] = lo
+                left_i[k] = left
+                tie_i[k] = tie
+                mi[k] = hi
+                m[k][i] = hi
+                rem[k] = rk - hi
+                left -= hi
+                tie = tie and hi == prev_row[k]
+                k += 1
+            if k < n or left != 0:
+                k -= 1
+                state = BACK
+                continue
+            # Row i is complete: close atom i.  Its component must still
+            # reach an open atom (connectivity), and the row check must pass.
+            saved_r[i] = rem[i]
             rem[i] = 0
-            # connectivity: merge i with its neighbours
-            new_comp = comp[:]
+            comp = comp_r[i]
             labels = {comp[i]}
             for j in range(n):
                 if mi[j]:
                     labels.add(comp[j])
-            for j in range(n):
-                if new_comp[j] in labels:
-                    new_comp[j] = i
+            new_comp = [i if c in labels else c for c in comp]
             ok = any(new_comp[j] == i for j in range(i + 1, n))
             if ok and (row_check is None or row_check(i, m)):
                 new_same = same[:]
-                for k in range(i + 2, n):
-                    if new_same[k] and mi[k] != mi[k - 1]:
-                        new_same[k] = False
-                yield from do_row(i + 1, new_same, new_comp, same[i + 1])
-            rem[i] = saved
-
-        yield from do_col(i + 1, rem[i], tie_prev)
-
-    for _ in do_row(0, same0, list(range(n)), False):
-        yield m
+                for j in range(i + 2, n):
+                    if new_same[j] and mi[j] != mi[j - 1]:
+                        new_same[j] = False
+                same_r[i + 1] = new_same
+                comp_r[i + 1] = new_comp
+                tie_r[i + 1] = same[i + 1]
+                i += 1
+                state = ENTER
+            else:
+                rem[i] = saved_r[i]
+                k = n - 1
+                state = BACK

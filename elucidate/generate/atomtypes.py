@@ -24,7 +24,6 @@ Examples
 from __future__ import annotations
 
 from dataclasses import dataclass
-from itertools import combinations_with_replacement
 from typing import Callable, Iterator, Mapping
 
 from ..formula import VALENCES, Formula
@@ -138,14 +137,10 @@ def type_distributions(
     n_heavy = formula.heavy_atoms
     h_total = formula.hydrogens
     elements = [el for el in formula.elements if el != "H"]
-    per_element: list[list[tuple[int, tuple[AtomType, ...]]]] = []
-    for el in elements:
-        opts = _element_options(el, tuple(valences.get(el, VALENCES[el][:1])), n_heavy)
-        n_el = formula.count(el)
-        choices = []
-        for combo in combinations_with_replacement(opts, n_el):
-            choices.append((sum(t.hydrogens for t in combo), combo))
-        per_element.append(choices)
+    per_element = [
+        (_element_options(el, tuple(valences.get(el, VALENCES[el][:1])), n_heavy), formula.count(el))
+        for el in elements
+    ]
 
     # Charge-separated N+/O- pairs: replace k neutral N and k neutral O.
     pair_counts = [0]
@@ -154,7 +149,7 @@ def type_distributions(
 
     seen: set[tuple[AtomType, ...]] = set()
     for k in pair_counts:
-        for dist in _combine(per_element, elements, h_total, k, formula, valences, n_heavy):
+        for dist in _combine(per_element, elements, h_total, k):
             dist = tuple(sorted(dist))
             if dist in seen:
                 continue
@@ -166,31 +161,86 @@ def type_distributions(
             yield dist
 
 
-def _combine(per_element, elements, h_total, k, formula, valences, n_heavy):
-    """Combine per-element choices; with k charged pairs the N/O lists shrink."""
+def _combine(per_element, elements, h_total, k):
+    """Combine per-element choices whose hydrogens add up to ``h_total``;
+    with k charged pairs, k N and k O atoms become N+ / O-.
+
+    Choices are produced lazily and only where the hydrogen total can still
+    be met, so large formulas (hundreds of atoms of one element) cost time
+    in proportion to the distributions found, not to every multiset.
+    """
     if k:
-        per_element = list(per_element)
-        for idx, el in enumerate(elements):
-            if el in ("N", "O"):
-                opts = _element_options(el, tuple(valences.get(el, VALENCES[el][:1])), n_heavy)
-                n_el = formula.count(el) - k
-                per_element[idx] = [
-                    (sum(t.hydrogens for t in c), c) for c in combinations_with_replacement(opts, n_el)
-                ]
+        per_element = [
+            (opts, n_el - k) if el in ("N", "O") else (opts, n_el)
+            for (opts, n_el), el in zip(per_element, elements)
+        ]
         extra = (AtomType("N", 4, 0, 1),) * k + (AtomType("O", 1, 0, -1),) * k
     else:
         extra = ()
+    # Hydrogens the elements after idx can carry at least / at most.
+    n = len(per_element)
+    min_rest = [0] * (n + 1)
+    max_rest = [0] * (n + 1)
+    for idx in range(n - 1, -1, -1):
+        opts, n_el = per_element[idx]
+        hs = [t.hydrogens for t in opts] or [0]
+        min_rest[idx] = min_rest[idx + 1] + n_el * min(hs)
+        max_rest[idx] = max_rest[idx + 1] + n_el * max(hs)
 
     def rec(idx: int, h_left: int, acc: tuple):
-        if idx == len(per_element):
+        if idx == n:
             if h_left == 0:
                 yield acc + extra
             return
-        for h, combo in per_element[idx]:
-            if h <= h_left:
-                yield from rec(idx + 1, h_left - h, acc + combo)
+        opts, n_el = per_element[idx]
+        lo = max(0, h_left - max_rest[idx + 1])
+        hi = h_left - min_rest[idx + 1]
+        for h, combo in _multisets(opts, n_el, lo, hi):
+            yield from rec(idx + 1, h_left - h, acc + combo)
 
     yield from rec(0, h_total, ())
+
+
+def _multisets(opts: list[AtomType], size: int, lo: int, hi: int):
+    """``(hydrogens, combo)`` for the size-``size`` multisets of ``opts`` whose
+    hydrogen sum lies in ``[lo, hi]``, in the order of
+    ``itertools.combinations_with_replacement(opts, size)``.
+
+    That order takes as many of ``opts[0]`` as possible first, then of
+    ``opts[1]``, and so on; a branch is skipped when the hydrogens still
+    reachable with the remaining options miss ``[lo, hi]``.
+    """
+    m = len(opts)
+    if size == 0:
+        if lo <= 0 <= hi:
+            yield 0, ()
+        return
+    if m == 0:
+        return
+    hs = [t.hydrogens for t in opts]
+    tail_min = [0] * (m + 1)
+    tail_max = [0] * (m + 1)
+    tail_min[m] = tail_max[m] = 0
+    for j in range(m - 1, -1, -1):
+        tail_min[j] = min(hs[j:])
+        tail_max[j] = max(hs[j:])
+    counts = [0] * m
+
+    def rec(j: int, left: int, h: int):
+        # ``left`` atoms still to place among opts[j:], hydrogens so far ``h``.
+        if h + left * tail_min[j] > hi or h + left * tail_max[j] < lo:
+            return
+        if j == m - 1:
+            counts[j] = left
+            yield h + left * hs[j], tuple(t for t, c in zip(opts, counts) for _ in range(c))
+            counts[j] = 0
+            return
+        for c in range(left, -1, -1):
+            counts[j] = c
+            yield from rec(j + 1, left - c, h + c * hs[j])
+        counts[j] = 0
+
+    yield from rec(0, size, 0)
 
 
 def _degree_feasible(dist: tuple[AtomType, ...]) -> bool:

@@ -39,7 +39,7 @@ from typing import Iterator
 
 import click
 import numpy as np
-from rdkit import Chem, RDLogger
+from rdkit import Chem, rdBase
 
 from ..errors import InputError
 from .codes import MAX_SPHERE, carbon_environment, code_key, graph_from_mol
@@ -136,7 +136,6 @@ def _open_text(path):
 
 
 def _read_corpus(data_path, limit, min_feature_count, progress):
-    RDLogger.DisableLog("rdApp.*")
     smiles_out = []
     rd_idx, rec, const, hyd, sym, keys, ctype, feats_per = [], [], [], [], [], [], [], []
     groups_raw = []
@@ -153,11 +152,12 @@ def _read_corpus(data_path, limit, min_feature_count, progress):
             n_lines += 1
             try:
                 obj = json.loads(line)
-                m0 = Chem.MolFromSmiles(obj["smiles"])
-                if m0 is None:
-                    continue
-                can = Chem.MolToSmiles(m0, isomericSmiles=False)
-                mol = Chem.MolFromSmiles(can)
+                # unreadable records are skipped; RDKit's log about them is
+                # muted only while they are read
+                with rdBase.BlockLogs():
+                    m0 = Chem.MolFromSmiles(obj["smiles"])
+                    can = Chem.MolToSmiles(m0, isomericSmiles=False) if m0 is not None else None
+                    mol = Chem.MolFromSmiles(can) if can is not None else None
                 if mol is None:
                     continue
                 obs = {}

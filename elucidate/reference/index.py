@@ -255,10 +255,10 @@ def _query_lines(peaks) -> tuple[np.ndarray, np.ndarray]:
 
 
 def _canonical_constitution(smiles: str, where: str) -> str:
-    from rdkit import Chem, RDLogger
+    from rdkit import Chem, rdBase
 
-    RDLogger.DisableLog("rdApp.*")
-    mol = Chem.MolFromSmiles(smiles)
+    with rdBase.BlockLogs():  # our error names the record instead of RDKit's parser log
+        mol = Chem.MolFromSmiles(smiles)
     if mol is None:
         raise InputError(f"{where}: RDKit cannot read SMILES {smiles!r}; check the structure")
     return Chem.MolToSmiles(mol, isomericSmiles=False)

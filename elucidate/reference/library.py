@@ -85,11 +85,19 @@ _NMREDATA_MULT = {"s": 0, "d": 1, "t": 2, "q": 3}
 # ---------------------------------------------------------------------------
 
 def _rdkit():
-    from rdkit import Chem, RDLogger
+    from rdkit import Chem
     from rdkit.Chem.rdMolDescriptors import CalcMolFormula
 
-    RDLogger.DisableLog("rdApp.*")
     return Chem, CalcMolFormula
+
+
+def _quiet(parse, *args, **kwargs):
+    """``parse(*args, **kwargs)`` with RDKit's log blocked for that call only
+    (our error naming the record replaces its parser messages)."""
+    from rdkit import rdBase
+
+    with rdBase.BlockLogs():
+        return parse(*args, **kwargs)
 
 
 def _shift(value, where: str) -> float:
@@ -240,7 +248,7 @@ def _jsonl_entry(text, where, origin, lineno, Chem, CalcMolFormula, skip_empty=F
     smiles = obj.get("smiles")
     if not isinstance(smiles, str) or not smiles.strip():
         raise InputError(f"{where}: no 'smiles'; every record needs the structure as SMILES")
-    mol = Chem.MolFromSmiles(smiles)
+    mol = _quiet(Chem.MolFromSmiles, smiles)
     if mol is None:
         raise InputError(f"{where}: RDKit cannot read SMILES {smiles!r}; check the structure")
     formula = CalcMolFormula(mol)
@@ -365,7 +373,7 @@ def _sdf_entry(molblock: str, items: dict[str, str], where: str, k: int, title: 
     Chem, CalcMolFormula = _rdkit()
     if "M  END" not in molblock:
         raise InputError(f"{where}: no molfile ('M  END' missing); each record needs a molfile block")
-    mol = Chem.MolFromMolBlock(molblock, sanitize=True, removeHs=False)
+    mol = _quiet(Chem.MolFromMolBlock, molblock, sanitize=True, removeHs=False)
     if mol is None:
         raise InputError(f"{where}: RDKit cannot read the molfile; check the atom and bond blocks")
     carbons = _carbon_hydrogens(mol)

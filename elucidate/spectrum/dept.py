@@ -18,6 +18,12 @@ line only).  An imperfect DEPT-90 shows small CH2/CH3 residues; lines below
 a fraction of the tallest DEPT-90 line are ignored, but larger residues can
 still pass as CH, so the result is a hypothesis to check against the
 spectra.
+
+A file given as the wrong experiment cannot always be told from its header;
+:func:`dept_sign_warnings` looks at the signs instead (a DEPT-90 has no
+strong negative line; a DEPT-135 of a compound with CH2 groups has one) and
+only warns, since a compound without CH2 gives a DEPT-135 without negative
+lines too.
 """
 
 from __future__ import annotations
@@ -26,7 +32,7 @@ import math
 
 from ..errors import InputError
 
-__all__ = ["classify_multiplicities"]
+__all__ = ["classify_multiplicities", "dept_sign_warnings"]
 
 
 def _nearest(line_shifts, pos: float, tol: float) -> int | None:
@@ -145,3 +151,70 @@ def classify_multiplicities(
     if have90 and not have135:
         warnings.append("DEPT-90 without DEPT-135: only CH lines are known")
     return tuple(hyd), tuple(warnings)
+
+
+def dept_sign_warnings(
+    dept135=None,
+    dept90=None,
+    *,
+    ch2_fraction: float = 0.2,
+    dept90_negative_fraction: float = 0.3,
+    dept135_name: str = "DEPT-135",
+    dept90_name: str = "DEPT-90",
+) -> tuple[str, ...]:
+    """Warnings when the line signs do not look like the experiment named.
+
+    Rules (common practice, no source): CH2 carbons give negative lines in
+    a DEPT-135 and (almost) nothing in a DEPT-90, where only CH shows,
+    positive.  So a "DEPT-135" without any negative line is either a
+    compound without CH2 or another experiment (DEPT-90, DEPT-45), and a
+    "DEPT-90" with strong negative lines is probably a DEPT-135.  Warnings
+    only: the data cannot prove which.
+
+    Parameters
+    ----------
+    dept135, dept90 : sequence of (shift, signed height), optional
+        Lines picked with both signs.
+    ch2_fraction : float
+        A negative DEPT-135 line counts when at least this fraction of the
+        tallest line (smaller ones may be artefacts).
+    dept90_negative_fraction : float
+        A negative DEPT-90 line counts when at least this fraction of the
+        tallest line (above the usual residue of an imperfect DEPT-90).
+    dept135_name, dept90_name : str
+        How the messages name the two spectra (e.g. with their file names).
+
+    Returns
+    -------
+    tuple of str
+
+    Examples
+    --------
+    >>> dept_sign_warnings(dept90=[(128.0, 1.0), (29.7, -0.9)])[0][:60]
+    'DEPT-90 shows strong negative lines (29.70 ppm); a DEPT-90 s'
+    >>> dept_sign_warnings(dept135=[(128.0, 1.0), (29.7, -0.9)])
+    ()
+    """
+    for name, value in (("ch2_fraction", ch2_fraction), ("dept90_negative_fraction", dept90_negative_fraction)):
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not 0 < value <= 1:
+            raise InputError(f"{name} {value!r} must be a fraction in (0, 1]")
+    out = []
+    if dept135 is not None:
+        lines = _check_lines(dept135, "DEPT-135")
+        tallest = max((abs(h) for _, h in lines), default=0.0)
+        if tallest > 0 and not any(h < 0 and -h >= ch2_fraction * tallest for _, h in lines):
+            out.append(
+                f"{dept135_name} shows no negative (CH2) line: right if the compound has no CH2 group, "
+                "otherwise check that the file is not a DEPT-90 or DEPT-45 spectrum"
+            )
+    if dept90 is not None:
+        lines = _check_lines(dept90, "DEPT-90")
+        tallest = max((abs(h) for _, h in lines), default=0.0)
+        strong = sorted((pos for pos, h in lines if h < 0 and -h >= dept90_negative_fraction * tallest),
+                        reverse=True)
+        if strong:
+            out.append(
+                f"{dept90_name} shows strong negative lines ({', '.join(f'{p:.2f}' for p in strong)} ppm); "
+                "a DEPT-90 shows CH lines only, positive: check that the file is not a DEPT-135 spectrum"
+            )
+    return tuple(out)

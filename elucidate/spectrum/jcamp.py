@@ -43,7 +43,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ..errors import InputError
-from .dept import classify_multiplicities
+from .dept import classify_multiplicities, dept_sign_warnings
 from .peaks import Peak, PeakList, _merge
 from .picking import PickedPeaks, PickSettings, pick_peaks
 
@@ -293,10 +293,21 @@ class JcampSpectrum:
         """``"dept135"``, ``"dept90"``, ``"dept45"`` or ``"c13"``, read from the
         title, data type and pulse-sequence records (best effort)."""
         text = " ".join(t for t in (self.title, self.data_type, self.pulse_sequence or "") if t).upper()
-        m = re.search(r"DEPT\W*(135|90|45)", text)
+        m = _DEPT_LABEL.search(text)
         if m:
             return "dept" + m.group(1)
         return "c13"
+
+    @property
+    def dept_labels(self) -> dict[str, str]:
+        """Every DEPT experiment the header names, with where it says so:
+        ``{"dept90": "title 'sample 7 DEPT-90'"}``; empty when silent."""
+        out: dict[str, str] = {}
+        for what, text in (("title", self.title), ("data type", self.data_type),
+                           ("pulse sequence", self.pulse_sequence)):
+            for m in _DEPT_LABEL.finditer((text or "").upper()):
+                out.setdefault("dept" + m.group(1), f"{what} {text.strip()!r}")
+        return out
 
     def __post_init__(self) -> None:
         x = np.asarray(self.x, dtype=float)
@@ -483,6 +494,9 @@ def _ntuples_real_page(block: _Block, name, title, data_type, nucleus, mhz) -> J
     return JcampSpectrum(title, data_type, nucleus, mhz, x, y, False, name, tuple(warnings))
 
 
+#: A DEPT experiment named in a header: DEPT-135, DEPT 90, dept135, DEPT_45.
+_DEPT_LABEL = re.compile(r"DEPT[\W_]*(135|90|45)(?!\d)")
+
 _PULSE_LABELS = (".PULSESEQUENCE", "PULSESEQUENCE", "$PULPROG", "$PULSEPROGRAM", ".PULSEPROGRAM")
 
 
@@ -590,6 +604,26 @@ def _split_compound(blocks):
     return used[0], used[1], used[2], notes
 
 
+def _check_dept_header(spec: JcampSpectrum, role: str) -> None:
+    """Refuse a DEPT file whose header names another DEPT experiment.
+
+    Only a header that names exactly one DEPT experiment, a different one,
+    is a contradiction; a silent header (or one naming several) is accepted
+    as given, without guessing.
+    """
+    labels = spec.dept_labels
+    wanted = role.replace("-", "").lower()
+    if len(labels) != 1 or wanted in labels:
+        return
+    kind, where = next(iter(labels.items()))
+    named = "DEPT-" + kind[4:]
+    option = f" (--{kind} on the command line)" if kind in ("dept135", "dept90") else ""
+    raise InputError(
+        f"the {role} spectrum {spec.source} is a {named} spectrum by its header ({where}); "
+        f"give it as the {named} spectrum{option}, or check the files"
+    )
+
+
 def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: PickSettings | None = None) -> PeakList:
     """A peak list from a 13C JCAMP-DX file, with DEPT multiplicities when given.
 
@@ -601,7 +635,9 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
         DEPT-135 / DEPT-90 spectra (or signed peak tables) of the same sample.
         When neither is given and ``c13_path`` is a compound file with
         several blocks, the blocks are told apart by their titles or
-        pulse-sequence records ("DEPT-135", "DEPT90", ...).
+        pulse-sequence records ("DEPT-135", "DEPT90", ...).  A DEPT file
+        whose header names another DEPT experiment is refused; one whose
+        line signs do not fit its experiment gives a warning.
     settings : PickSettings, optional
 
     Returns
@@ -634,22 +670,32 @@ def peaks_from_jcamp(c13_path, dept135_path=None, dept90_path=None, settings: Pi
     ]
     warnings = list(c13.warnings)
     dept_lines: dict[str, tuple[tuple[float, float], ...] | None] = {"DEPT-135": None, "DEPT-90": None}
+    signed: dict[str, tuple[tuple[float, float], ...] | None] = {"DEPT-135": None, "DEPT-90": None}
+    names: dict[str, str] = {}
     for role, path, both in (("DEPT-135", dept135_path, True), ("DEPT-90", dept90_path, False)):
         if path is None:
             continue
         spec = _load(path, f"{role} spectrum")
-        kind = spec.experiment
-        wanted = role.replace("-", "").lower()
-        if kind.startswith("dept") and kind != wanted:
-            warnings.append(
-                f"the spectrum given as {role} ({spec.source}) is labelled {kind.upper()}; check the files"
-            )
+        _check_dept_header(spec, role)
         dp = pick_peaks(spec, settings, both_signs=both)
         provenance.append(
             f"{role} lines from peak table {spec.source}" if spec.is_peak_table else f"{role}: {dp.describe()}"
         )
         warnings.extend(spec.warnings)
         dept_lines[role] = tuple(zip(dp.shifts, dp.heights))
+        # The signs tell a DEPT-135 from a DEPT-90 (dept_sign_warnings); the
+        # DEPT-90 lines classified above are the positive ones only.
+        if both:
+            signed[role] = dept_lines[role]
+        else:
+            every = pick_peaks(spec, settings, both_signs=True)
+            signed[role] = tuple(zip(every.shifts, every.heights))
+        names[role] = f"the {role} spectrum ({spec.source})"
+    warnings.extend(dept_sign_warnings(
+        signed["DEPT-135"], signed["DEPT-90"],
+        dept90_negative_fraction=max(0.3, settings.dept90_min_fraction),
+        dept135_name=names.get("DEPT-135", ""), dept90_name=names.get("DEPT-90", ""),
+    ))
     hyd, notes_dept = classify_multiplicities(
         shifts,
         dept_lines["DEPT-135"],

@@ -20,7 +20,7 @@ from __future__ import annotations
 import time
 from typing import Callable, Iterator
 
-from rdkit import Chem, RDLogger
+from rdkit import Chem, rdBase
 
 from ..errors import InputError
 
@@ -62,9 +62,18 @@ def single_moves(smiles: str) -> list[str]:
     >>> single_moves("Cc1ccccc1Cl")
     ['Cc1ccc(Cl)cc1', 'Cc1cccc(Cl)c1', 'ClCc1ccccc1']
     """
-    mol = Chem.MolFromSmiles(smiles)
+    # Most edits give impossible valences; RDKit's complaints about them
+    # (and about unreadable input, replaced by our error) are not news to
+    # the caller.  The block ends with this call.
+    with rdBase.BlockLogs():
+        return _single_moves(smiles)
+
+
+def _single_moves(smiles: str) -> list[str]:
+    mol = Chem.MolFromSmiles(smiles) if isinstance(smiles, str) else None
     if mol is None:
-        raise InputError(f"cannot parse {smiles!r} as SMILES")
+        raise InputError(f"cannot parse {smiles!r} as SMILES; check brackets, ring-closure digits "
+                         "and atom valences")
     own = Chem.MolToSmiles(mol, isomericSmiles=False)
     out: set[str] = set()
     n = mol.GetNumAtoms()
@@ -125,8 +134,12 @@ def positional_isomers(
     if depth < 1:
         return
     start = time.monotonic()
-    RDLogger.DisableLog("rdApp.*")
-    own = Chem.MolToSmiles(Chem.MolFromSmiles(smiles), isomericSmiles=False)
+    with rdBase.BlockLogs():  # our one-line error replaces RDKit's parser log
+        mol = Chem.MolFromSmiles(smiles) if isinstance(smiles, str) else None
+    if mol is None:
+        raise InputError(f"cannot parse {smiles!r} as SMILES; check brackets, ring-closure digits "
+                         "and atom valences")
+    own = Chem.MolToSmiles(mol, isomericSmiles=False)
     seen = {own}
     frontier = [own]
     for _ in range(depth):
