@@ -221,7 +221,7 @@ class _FormEnvironments:
 #: None): both are pure functions of the triple, so the strings are built once
 #: per distinct first-sphere environment.
 _ATOM_ENV: dict[tuple, tuple] = {}
-_ATOM_ENV_SIZE = 200_000
+_ATOM_ENV_SIZE = 50_000
 
 
 def _atom_environment(label: str, h: int, nbs: tuple) -> tuple:

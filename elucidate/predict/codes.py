@@ -347,7 +347,7 @@ def sphere_codes(graph: MolGraph, i: int, steps=None, shells=None) -> list:
 
 def path_features(graph: MolGraph, i: int, shells) -> list:
     """The path features of :func:`carbon_environment` from the shells that
-    :func:`sphere_codes` recorded (the same strings, the same multiset)."""
+    :func:`sphere_codes` recorded (the same strings in the same order)."""
     ctype = f"{graph.token[i]}H{graph.hydrogens[i]}|" + "".join(sorted({b for _, b in graph.adjacency[i]}))
     feats = [ctype]
     token = graph.token
@@ -358,15 +358,15 @@ def path_features(graph: MolGraph, i: int, shells) -> list:
             feats.append(f"{ctype}|ring{2 * k}")
         pre = f"{ctype}|{k}|"
         if k == 1:
-            for lab in found.values():
-                feats.append(pre + lab)
+            feats.extend([pre + lab for lab in found.values()])
         elif k <= PATH_FEATURE_DISTANCE:
+            star = pre + "*"
             for q, lab in found.items():
                 feats.append(pre + lab)
-                feats.append(pre + "*" + lab[-(len(token[q]) + 1):])
+                feats.append(star + lab[-(len(token[q]) + 1):])
         else:
-            for q, lab in found.items():
-                feats.append(pre + "*" + lab[-(len(token[q]) + 1):])
+            star = pre + "*"
+            feats.extend([star + lab[-(len(token[q]) + 1):] for q, lab in found.items()])
     return feats
 
 

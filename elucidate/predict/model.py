@@ -237,8 +237,9 @@ class ShiftModel:
 
 
 #: code string -> `code_key` (a pure function; shallow codes recur in every
-#: molecule, so their digests are computed once).
+#: molecule, so their digests are computed once).  Emptied at _KEYS_SIZE.
 _KEYS: dict[str, int] = {}
+_KEYS_SIZE = 100_000
 
 
 class _CodeKeys:
@@ -256,7 +257,7 @@ class _CodeKeys:
             code = self.codes[s]
             k = _KEYS.get(code)
             if k is None:
-                if len(_KEYS) > 500_000:
+                if len(_KEYS) >= _KEYS_SIZE:
                     _KEYS.clear()
                 k = _KEYS[code] = code_key(code)
             self.keys[s] = k
