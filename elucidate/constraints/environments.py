@@ -43,7 +43,7 @@ import numpy as np
 from rdkit import Chem, rdBase
 
 from ..datafiles import data_file
-from ..rank.cover import cover_cost
+from ..rank.cover import CoverRow, cover_cost, min_offset_cover
 
 __all__ = [
     "EnvironmentTable",
@@ -140,19 +140,53 @@ def mol_environment_keys(mol: Chem.Mol) -> dict[int, tuple[str, str]]:
     return out
 
 
+def _has_aromatic_atom(mol: Chem.Mol) -> bool:
+    return len(mol.GetAromaticAtoms()) > 0
+
+
+def _formal_charges(mol: Chem.Mol) -> list[int]:
+    get = mol.GetAtomWithIdx
+    return [get(i).GetFormalCharge() for i in range(mol.GetNumAtoms())]
+
+
+#: Any atom with a formal charge.
+_CHARGED = Chem.MolFromSmarts("[!+0]")
+
+
 def kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
-    if not any(a.GetIsAromatic() for a in mol.GetAtoms()):
+    """Kekulé structures of a molecule (the molecule itself when it has no
+    aromatic atom).
+
+    RDKit's resonance enumeration (``ResonanceMolSupplier`` with
+    ``KEKULE_ALL``) in its own order, keeping the forms whose formal charges
+    equal the molecule's atom by atom; the enumeration stops after the first
+    form kept at or beyond position ``limit``.  When no form is kept, a single
+    kekulized copy (or the molecule itself, if kekulization fails).
+    """
+    if not _has_aromatic_atom(mol):
         return [mol]
     forms = []
     # resonance enumeration logs the forms it rejects; keep that quiet
     with rdBase.BlockLogs():
         try:
             supplier = Chem.ResonanceMolSupplier(mol, Chem.ResonanceFlags.KEKULE_ALL)
-            for i, form in enumerate(supplier):
+            # a neutral molecule keeps exactly its neutral forms (one substructure
+            # query per form instead of reading every atom's charge)
+            charges = _formal_charges(mol) if mol.HasSubstructMatch(_CHARGED) else None
+            # len() once and direct indexing: the supplier's iterator re-checks
+            # its end (and the Python-level atom iterators are slow)
+            for i in range(len(supplier)):
+                form = supplier[i]
                 if form is None:
                     continue
-                if any(a.GetFormalCharge() != b.GetFormalCharge() for a, b in zip(form.GetAtoms(), mol.GetAtoms())):
-                    continue
+                if charges is None:
+                    if form.HasSubstructMatch(_CHARGED):
+                        continue
+                else:
+                    get = form.GetAtomWithIdx
+                    if any(get(j).GetFormalCharge() != c
+                           for j, c in zip(range(form.GetNumAtoms()), charges)):
+                        continue
                 forms.append(form)
                 if i + 1 >= limit:
                     break
@@ -166,6 +200,106 @@ def kekule_forms(mol: Chem.Mol, limit: int = 32) -> list[Chem.Mol]:
         except (RuntimeError, ValueError):
             forms = [mol]
     return forms
+
+
+class _FormEnvironments:
+    """Environment keys of one Kekulé form, computed once per molecule and
+    shared by :meth:`EnvironmentTable.mol_rarity` and
+    :meth:`EnvironmentRule.structure_cost` (both take the same forms).
+
+    ``atom_keys``: :func:`atom_key` of every atom, by atom index;
+    ``carbon_keys``: ``(H count, environment_keys)`` of every neutral carbon
+    (label ``C``), by atom index.
+    """
+
+    __slots__ = ("atom_keys", "carbon_keys")
+
+    def __init__(self, atom_keys, carbon_keys):
+        self.atom_keys = atom_keys
+        self.carbon_keys = carbon_keys
+
+
+#: (label, H count, sorted neighbours) -> (atom_key, (H, environment_keys) or
+#: None): both are pure functions of the triple, so the strings are built once
+#: per distinct first-sphere environment.
+_ATOM_ENV: dict[tuple, tuple] = {}
+_ATOM_ENV_SIZE = 50_000
+
+
+def _atom_environment(label: str, h: int, nbs: tuple) -> tuple:
+    ak = f"{label}{h}|" + ",".join([f"{nl}{nh}-{o}" for nl, nh, o in nbs])
+    return ak, ((h, environment_keys(h, nbs)) if label == "C" else None)
+
+
+def _form_environments(form: Chem.Mol, labels: list[str], ends: list) -> _FormEnvironments:
+    """Keys of a form's atoms as :func:`mol_atom_keys` and
+    :func:`environment_keys` build them from :func:`_neighbours`.
+
+    ``ends``: ``(begin, end)`` atoms of every bond by index, the same in every
+    form of a molecule (RDKit builds each resonance form as a copy of the
+    molecule, so atom and bond indices are kept); filled from the first form.
+    """
+    n = form.GetNumAtoms()
+    get_atom = form.GetAtomWithIdx
+    hs = [get_atom(i).GetTotalNumHs() for i in range(n)]
+    nbs: list[list] = [[] for _ in range(n)]
+    get_bond = form.GetBondWithIdx
+    m = form.GetNumBonds()
+    if len(ends) != m:
+        ends[:] = [(b.GetBeginAtomIdx(), b.GetEndAtomIdx()) for b in map(get_bond, range(m))]
+    for (a, b), bond in zip(ends, map(get_bond, range(m))):
+        o = int(round(bond.GetBondTypeAsDouble()))
+        nbs[a].append((labels[b], hs[b], o))
+        nbs[b].append((labels[a], hs[a], o))
+    memo = _ATOM_ENV
+    if len(memo) > _ATOM_ENV_SIZE:
+        memo.clear()
+    atom_keys = []
+    carbon_keys = []
+    for lab, h, nb in zip(labels, hs, nbs):
+        nb.sort()
+        k = (lab, h, tuple(nb))
+        env = memo.get(k)
+        if env is None:
+            env = memo[k] = _atom_environment(*k)
+        atom_keys.append(env[0])
+        if env[1] is not None:
+            carbon_keys.append(env[1])
+    return _FormEnvironments(tuple(atom_keys), tuple(carbon_keys))
+
+
+#: Environments of the Kekulé forms of the last few molecules, keyed by the
+#: molecule's binary pickle (its whole content, so an edited molecule never
+#: reuses a stale entry).  Small on purpose: it only lets the prior and the
+#: approximate cost of one structure share one resonance enumeration.
+_FORMS_CACHE: dict[bytes, tuple[_FormEnvironments, ...]] = {}
+_FORMS_CACHE_SIZE = 8
+
+
+def _mol_forms(mol: Chem.Mol) -> tuple[_FormEnvironments, ...]:
+    """:func:`kekule_forms` of ``mol`` as environment data, cached briefly."""
+    key = mol.ToBinary()
+    hit = _FORMS_CACHE.get(key)
+    if hit is not None:
+        return hit
+    get = mol.GetAtomWithIdx
+    n = mol.GetNumAtoms()
+    if mol.HasSubstructMatch(_CHARGED):
+        labels = []
+        for i in range(n):
+            atom = get(i)
+            labels.append(_label(atom.GetSymbol(), atom.GetFormalCharge()))
+    else:
+        labels = [get(i).GetSymbol() for i in range(n)]
+    # every form kept has the molecule's atoms and formal charges (the
+    # kekulized fallback and the molecule itself trivially), so the labels
+    # are the molecule's; hydrogen counts and bond orders are the form's own
+    ends: list = []
+    hit = tuple(_form_environments(form, labels, ends) for form in kekule_forms(mol))
+    if len(_FORMS_CACHE) >= _FORMS_CACHE_SIZE:
+        del _FORMS_CACHE[next(iter(_FORMS_CACHE))]
+    _FORMS_CACHE[key] = hit
+    return hit
 
 
 @dataclass(frozen=True)
@@ -185,7 +319,7 @@ class EnvironmentTable:
 
     def mol_rarity(self, mol: Chem.Mol) -> float:
         """Summed rarity of a molecule's atoms (smallest over its Kekulé forms)."""
-        return min(sum(self.atom_rarity(k) for k in mol_atom_keys(f)) for f in kekule_forms(mol))
+        return min(sum(map(self.atom_rarity, f.atom_keys)) for f in _mol_forms(mol))
 
     def lookup(self, keys: tuple[str, str]):
         """Statistics at the deepest level with enough examples, or None."""
@@ -312,6 +446,7 @@ class EnvironmentRule:
         self._rarity_cache: dict[str, float] = {}
         self._lines = [(p.hydrogens, p.shift) for p in peaks]
         self._line_costs: dict = {}
+        self._cover_rows: dict = {}
 
     def _rarity(self, key: str) -> float:
         r = self._rarity_cache.get(key)
@@ -355,7 +490,10 @@ class EnvironmentRule:
         """Cost of a carbon under each line (same Student-t excess as
         :meth:`cost`; ``inf`` where the line's multiplicity does not match),
         or None when :meth:`allowed` excludes the environment."""
-        keys = environment_keys(h, neighbours)
+        return self._line_costs_for(h, environment_keys(h, neighbours))
+
+    def _line_costs_for(self, h: int, keys: tuple[str, str]):
+        """:meth:`line_costs` of a carbon whose :func:`environment_keys` are known."""
         ck = (h, keys)
         hit = self._line_costs.get(ck)
         if hit is None:
@@ -386,19 +524,34 @@ class EnvironmentRule:
         own cheapest line) never exceeds this, so a bound proven by that
         search is also a bound on this cost.
         """
+        n_lines = len(self._lines)
+        weight = self.rarity_weight
+        rarity_of = self._rarity
+        problems = []
         best = math.inf
-        for form in kekule_forms(mol):
-            rows = []
+        for form in _mol_forms(mol):
             total = 0.0
-            for atom in form.GetAtoms():
-                nbs = _neighbours(atom)
-                label = _label(atom.GetSymbol(), atom.GetFormalCharge())
-                total += self.atom_rarity(label, atom.GetTotalNumHs(), nbs)
-                if label == "C":
-                    vec = self.line_costs(atom.GetTotalNumHs(), nbs)
-                    rows.append(vec if vec is not None else np.full(len(self._lines), np.inf))
-            best = min(best, total + cover_cost(rows, len(self._lines)))
-        return best
+            for key in form.atom_keys:
+                total += weight * rarity_of(key)
+            rows = [self._cover_row(h, keys) for h, keys in form.carbon_keys]
+            if any(r is None for r, _ in rows):  # a NaN among the costs: numpy's semantics
+                best = min(best, total + cover_cost([np.array(v) for _, v in rows], n_lines))
+            else:
+                problems.append((total, [r for r, _ in rows]))
+        # the smallest total + cover over the forms; covers that cannot win are skipped
+        return min(best, min_offset_cover(problems, n_lines))
+
+    def _cover_row(self, h: int, keys: tuple[str, str]):
+        """``(CoverRow or None if a cost is NaN, costs as a tuple)`` of
+        :meth:`_line_costs_for`, with ``inf`` everywhere for an excluded
+        environment; cached per environment."""
+        ck = (h, keys)
+        hit = self._cover_rows.get(ck)
+        if hit is None:
+            vec = self._line_costs_for(h, keys)
+            row = tuple(vec.tolist()) if vec is not None else (math.inf,) * len(self._lines)
+            hit = self._cover_rows[ck] = (None if any(x != x for x in row) else CoverRow(row), row)
+        return hit
 
     def __call__(self, dist):
         labels = [t.label for t in dist]

@@ -132,10 +132,12 @@ def carbon_classes(mol: Chem.Mol) -> dict[int, list[list[int]]]:
     """
     ranks = list(Chem.CanonicalRankAtoms(mol, breakTies=False))
     groups: dict[tuple[int, int], list[int]] = {}
-    for atom in mol.GetAtoms():
+    get = mol.GetAtomWithIdx
+    for i in range(mol.GetNumAtoms()):
+        atom = get(i)
         if atom.GetAtomicNum() == 6:
-            key = (atom.GetTotalNumHs(), ranks[atom.GetIdx()])
-            groups.setdefault(key, []).append(atom.GetIdx())
+            key = (atom.GetTotalNumHs(), ranks[i])
+            groups.setdefault(key, []).append(i)
     out: dict[int, list[list[int]]] = {}
     for (h, _), atoms in sorted(groups.items()):
         out.setdefault(h, []).append(atoms)

@@ -43,6 +43,8 @@ __all__ = [
     "MolGraph",
     "graph_from_mol",
     "carbon_environment",
+    "sphere_codes",
+    "path_features",
     "code_key",
 ]
 
@@ -262,6 +264,110 @@ def carbon_environment(graph: MolGraph, i: int, features: bool = True):
             label[q] = lab
         frontier = list(found)
     return codes, feats
+
+
+def _shell_steps(graph: MolGraph):
+    """Per-graph tables for :func:`sphere_codes`: for every atom its heavy
+    neighbours with the label suffix (bond char + token) they get when reached
+    from it beyond sphere 1, and its neighbour indices alone."""
+    token = graph.token
+    step = []
+    around = []
+    for nb in graph.adjacency:
+        step.append([(q, b + token[q]) for q, b in nb])
+        around.append([q for q, _ in nb])
+    return step, around
+
+
+def sphere_codes(graph: MolGraph, i: int, steps=None, shells=None) -> list:
+    """The codes of :func:`carbon_environment` (spheres 0..MAX_SPHERE) alone.
+
+    The same breadth-first search, with the label suffixes of every neighbour
+    precomputed once per graph (``steps``, from ``_shell_steps``; pass it when
+    coding several centres of one graph).  The strings are identical to
+    ``carbon_environment(graph, i)[0]``.  With a list ``shells``, each sphere's
+    ``({atom: path label}, inner bonds x 2, extra parents)`` is appended to it
+    (for :func:`path_features`).
+    """
+    step, around = steps if steps is not None else _shell_steps(graph)
+    code = f"{graph.token[i]}H{graph.hydrogens[i]}"
+    codes = [code]
+    first = graph.first_token
+    # sphere 1: the neighbours, each reached once
+    found = {q: b + first[q] for q, b in graph.adjacency[i]}
+    label = {i: ""}  # atoms reached so far (all earlier spheres) -> path label
+    k = 1
+    multi = 0
+    while True:
+        if not found:
+            if shells is not None:
+                shells.append((found, 0, 0))
+            # molecule exhausted: this and deeper codes repeat with an empty shell
+            for _ in range(k, MAX_SPHERE + 1):
+                code = code + "/"
+                codes.append(code)
+            break
+        # bonds inside the new shell (odd rings through the centre)
+        inner = 0
+        if len(found) > 1:
+            for q in found:
+                for r in around[q]:
+                    if r in found:
+                        inner += 1
+        code = code + "/" + ",".join(sorted(found.values()))
+        if inner:
+            code += f"%{inner // 2}"
+        if multi:
+            code += f"&{multi}"
+        codes.append(code)
+        if shells is not None:
+            shells.append((found, inner, multi))
+        if k == MAX_SPHERE:
+            break
+        label.update(found)
+        frontier = found
+        found = {}
+        multi = 0
+        for p in frontier:
+            lp = label[p]
+            for q, suffix in step[p]:
+                if q in label:
+                    continue
+                lab = lp + suffix
+                old = found.get(q)
+                if old is None:
+                    found[q] = lab
+                else:
+                    multi += 1
+                    if lab < old:
+                        found[q] = lab
+        k += 1
+    return codes
+
+
+def path_features(graph: MolGraph, i: int, shells) -> list:
+    """The path features of :func:`carbon_environment` from the shells that
+    :func:`sphere_codes` recorded (the same strings in the same order)."""
+    ctype = f"{graph.token[i]}H{graph.hydrogens[i]}|" + "".join(sorted({b for _, b in graph.adjacency[i]}))
+    feats = [ctype]
+    token = graph.token
+    for k, (found, inner, multi) in enumerate(shells[:FEATURE_DISTANCE], start=1):
+        if inner:
+            feats.append(f"{ctype}|ring{2 * k + 1}")
+        if multi:
+            feats.append(f"{ctype}|ring{2 * k}")
+        pre = f"{ctype}|{k}|"
+        if k == 1:
+            feats.extend([pre + lab for lab in found.values()])
+        elif k <= PATH_FEATURE_DISTANCE:
+            star = pre + "*"
+            for q, lab in found.items():
+                feats.append(pre + lab)
+                feats.append(star + lab[-(len(token[q]) + 1):])
+        else:
+            star = pre + "*"
+            feats.extend([star + lab[-(len(token[q]) + 1):] for q, lab in found.items()])
+    return feats
 
 
 def code_key(code: str) -> int:

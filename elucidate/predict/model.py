@@ -28,11 +28,12 @@ fallback features too), so ranking many related candidates is cheap.
 from __future__ import annotations
 
 import json
+from itertools import repeat
 from pathlib import Path
 
 import numpy as np
 
-from .codes import MAX_SPHERE, carbon_environment, code_key, graph_from_mol
+from .codes import MAX_SPHERE, _shell_steps, code_key, graph_from_mol, path_features, sphere_codes
 
 __all__ = [
     "CODE_FEATURE_SPHERES",
@@ -149,15 +150,17 @@ class ShiftModel:
     def fallback(self, feats, codes, hydrogens: int) -> float:
         """Additive fallback shift from path features (first = centre type)
         and the code increments of spheres `CODE_FEATURE_SPHERES`."""
+        return self._fallback(feats, _CodeKeys(codes), hydrogens)
+
+    def _fallback(self, feats, keys: "_CodeKeys", hydrogens: int) -> float:
         base = self._base.get(feats[0])
         if base is None:
             # unseen centre type: mean shift of carbons with as many H (CH4 -> CH3)
             return self._h_means.get(min(hydrogens, 3), 100.0)
-        w = self._w
-        total = base + sum(w.get(f, 0.0) for f in sorted(feats[1:]))
+        total = base + sum(map(self._w.get, sorted(feats[1:]), repeat(0.0)))
         row = self._row
         for s in CODE_FEATURE_SPHERES:
-            i = row.get(code_key(codes[s]))
+            i = row.get(keys[s])
             if i is not None:
                 total += self._code_w[i]
         return total
@@ -169,11 +172,14 @@ class ShiftModel:
         last is the median one sphere up (equal to ``median`` at sphere 1);
         ``(0, nan, 0, nan, nan)`` when nothing matches.
         """
+        return self._lookup(_CodeKeys(codes))
+
+    def _lookup(self, keys: "_CodeKeys"):
         row = self._row
         for s in range(MAX_SPHERE, 0, -1):
-            i = row.get(code_key(codes[s]))
+            i = row.get(keys[s])
             if i is not None:
-                j = row.get(code_key(codes[s - 1])) if s > 1 else None
+                j = row.get(keys[s - 1]) if s > 1 else None
                 up = self._median[j] if j is not None else self._median[i]
                 return s, self._median[i], self._count[i], self._spread[i], up
         nan = float("nan")
@@ -204,16 +210,19 @@ class ShiftModel:
         """
         out = []
         cache = self._cache
+        steps = _shell_steps(graph)
         for i, sym in enumerate(graph.symbol):
             if sym != "C":
                 continue
-            codes, _ = carbon_environment(graph, i, features=False)
+            shells = []
+            codes = sphere_codes(graph, i, steps, shells)
             key = codes[MAX_SPHERE]
             hit = cache.get(key)
             if hit is None:
-                _, feats = carbon_environment(graph, i)
-                s, m, n, spread, up = self.lookup(codes)
-                fb = self.fallback(feats, codes, graph.hydrogens[i])
+                feats = path_features(graph, i, shells)
+                keys = _CodeKeys(codes)
+                s, m, n, spread, up = self._lookup(keys)
+                fb = self._fallback(feats, keys, graph.hydrogens[i])
                 shift, sig = self.combine(s, m, n, spread, up, fb, graph.hydrogens[i])
                 hit = (shift, sig, s)
                 if len(cache) > 500_000:
@@ -227,6 +236,34 @@ class ShiftModel:
         graph = graph_from_mol(mol)
         return [(graph.atom_index[i], graph.hydrogens[i], sh, sg, s)
                 for i, sh, sg, s in self.predict_graph(graph)]
+
+
+#: code string -> `code_key` (a pure function; shallow codes recur in every
+#: molecule, so their digests are computed once).  Emptied at _KEYS_SIZE.
+_KEYS: dict[str, int] = {}
+_KEYS_SIZE = 100_000
+
+
+class _CodeKeys:
+    """`code_key` of each code of a list, computed on first use."""
+
+    __slots__ = ("codes", "keys")
+
+    def __init__(self, codes):
+        self.codes = codes
+        self.keys = [None] * len(codes)
+
+    def __getitem__(self, s: int) -> int:
+        k = self.keys[s]
+        if k is None:
+            code = self.codes[s]
+            k = _KEYS.get(code)
+            if k is None:
+                if len(_KEYS) >= _KEYS_SIZE:
+                    _KEYS.clear()
+                k = _KEYS[code] = code_key(code)
+            self.keys[s] = k
+        return k
 
 
 _DEFAULT = None

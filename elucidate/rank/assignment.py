@@ -161,57 +161,63 @@ def assign_lines(peaks: Sequence, classes: Sequence[CarbonClass]) -> Assignment:
 def _assign_flow(peaks, classes) -> Assignment:
     nc, nl = len(classes), len(peaks)
     obs = np.array([pk.shift for pk in peaks], dtype=float)
-    line_h = np.array([-1 if pk.hydrogens is None else pk.hydrogens for pk in peaks])
-    cls_h = np.array([c.hydrogens for c in classes])
-    compat = (line_h[None, :] == -1) | (line_h[None, :] == cls_h[:, None])
+    line_h = [-1 if pk.hydrogens is None else pk.hydrogens for pk in peaks]
+    # compatible (class, line) pairs, row-major (class first, then line)
+    pc, pl = [], []
+    for c, cls in enumerate(classes):
+        h = cls.hydrogens
+        for l, lh in enumerate(line_h):
+            if lh == -1 or lh == h:
+                pc.append(c)
+                pl.append(l)
     cost = shift_cost_matrix(obs, [c.shift for c in classes], [c.sigma for c in classes])
-    cost[~compat] = np.nan
-    split_cap = np.array([min(len(c.atoms) - 1, 2) for c in classes], dtype=np.int64)
-    total_split = int(split_cap.sum())
+    # arc costs of the compatible pairs (only these entries of ``cost`` are read)
+    pair_cost = np.round(cost.ravel()[[c * nl + l for c, l in zip(pc, pl)]] * _SCALE).astype(np.int64).tolist()
+    split_cap = [min(len(c.atoms) - 1, 2) for c in classes]
+    total_split = sum(split_cap)
 
-    source, sink = 0, 1
-    cnode = 2 + np.arange(nc)
-    lnode = 2 + nc + np.arange(nl)
-    pc, pl = np.nonzero(compat)
-    # Split arcs: a class's first extra line at its own split cost, any
-    # further one at SPLIT_COST (costs rise, so the flow takes them in order).
-    has_split = np.nonzero(split_cap)[0]
-    more_split = np.nonzero(split_cap > 1)[0]
-    first_cost = np.array([round(classes[c].split_cost * _SCALE) for c in has_split], np.int64)
-    tails = [np.zeros(nc, np.int64), np.zeros(len(has_split) + len(more_split), np.int64),
-             cnode[pc], lnode, lnode]
-    heads = [cnode, cnode[np.concatenate([has_split, more_split])], lnode[pl], np.full(nl, sink),
-             np.full(nl, sink)]
-    caps = [np.ones(nc, np.int64), np.concatenate([np.ones(len(has_split), np.int64), split_cap[more_split] - 1]),
-            np.ones(len(pc), np.int64), np.ones(nl, np.int64), np.full(nl, nc, np.int64)]
-    costs = [np.full(nc, -_FORCE, np.int64),
-             np.concatenate([first_cost, np.full(len(more_split), round(SPLIT_COST * _SCALE), np.int64)]),
-             np.round(cost[pc, pl] * _SCALE).astype(np.int64),
-             np.full(nl, round(-UNFILLED_COST * _SCALE), np.int64),
-             np.full(nl, round(OVERLAP_COST * _SCALE), np.int64)]
+    # Network: source 0, sink 1, class c = node 2 + c, line l = node 2 + nc + l.
+    # Arcs in this order: source -> class (forced); split arcs, a class's first
+    # extra line at its own split cost, any further one at SPLIT_COST (costs
+    # rise, so the flow takes them in order); class -> line; line -> sink once
+    # (a filled line earns UNFILLED_COST) and again for overlaps; source -> sink
+    # for split capacity left unused.  The arrays are built as plain lists
+    # (numpy calls cost more than they save at this size).
+    has_split = [c for c in range(nc) if split_cap[c]]
+    more_split = [c for c in range(nc) if split_cap[c] > 1]
+    n_split = len(has_split) + len(more_split)
+    lnodes = list(range(2 + nc, 2 + nc + nl))
+    tails = [0] * (nc + n_split) + [2 + c for c in pc] + lnodes + lnodes
+    heads = (list(range(2, 2 + nc)) + [2 + c for c in has_split] + [2 + c for c in more_split]
+             + [2 + nc + l for l in pl] + [1] * (2 * nl))
+    caps = ([1] * (nc + len(has_split)) + [split_cap[c] - 1 for c in more_split] + [1] * (len(pc) + nl)
+            + [nc] * nl)
+    costs = ([-_FORCE] * nc + [round(classes[c].split_cost * _SCALE) for c in has_split]
+             + [round(SPLIT_COST * _SCALE)] * len(more_split) + pair_cost
+             + [round(-UNFILLED_COST * _SCALE)] * nl + [round(OVERLAP_COST * _SCALE)] * nl)
     if total_split:
-        tails.append(np.array([source]))
-        heads.append(np.array([sink]))
-        caps.append(np.array([total_split]))
-        costs.append(np.array([0]))
-    first_pair = nc + len(has_split) + len(more_split)
+        tails.append(0)
+        heads.append(1)
+        caps.append(total_split)
+        costs.append(0)
+    first_pair = nc + n_split
 
     flow = min_cost_flow.SimpleMinCostFlow()
     arcs = flow.add_arcs_with_capacity_and_unit_cost(
-        np.concatenate(tails), np.concatenate(heads), np.concatenate(caps), np.concatenate(costs)
+        np.array(tails, np.int64), np.array(heads, np.int64), np.array(caps, np.int64),
+        np.array(costs, np.int64)
     )
     supply = nc + total_split
-    flow.set_nodes_supplies(np.array([source, sink]), np.array([supply, -supply]))
+    flow.set_nodes_supplies(np.array([0, 1]), np.array([supply, -supply]))
     status = flow.solve()
     if status != flow.OPTIMAL:
         return Assignment((), math.inf, 0, 0, tuple(range(nl)))
     flows = flow.flows(arcs)
-    used = np.nonzero(flows[first_pair:first_pair + len(pc)])[0]
-    pair_arcs = [(None, int(pc[k]), int(pl[k])) for k in used]
+    used = np.nonzero(flows[first_pair:first_pair + len(pc)])[0].tolist()
 
     per_class: dict[int, list[int]] = {}
-    for _, c, l in pair_arcs:
-        per_class.setdefault(c, []).append(l)
+    for k in used:
+        per_class.setdefault(pc[k], []).append(pl[k])
     if len(per_class) < nc:  # some class had no compatible line
         return Assignment((), math.inf, 0, 0, tuple(range(nl)))
     # Decide which entry of each line is its primary one (the best fitting),
@@ -220,26 +226,30 @@ def _assign_flow(peaks, classes) -> Assignment:
     for c, ls in per_class.items():
         for l in ls:
             by_line.setdefault(l, []).append(c)
-    primary = {l: min(cs, key=lambda c: (cost[c, l], c)) for l, cs in by_line.items()}
+    cm = cost.tolist()
+    primary = {l: min(cs, key=lambda c: (cm[c][l], c)) for l, cs in by_line.items()}
     entries = []
     total = 0.0
     overlaps = splits = 0
     for c in sorted(per_class):
-        ls = sorted(per_class[c], key=lambda l: (cost[c, l], l))
+        row = cm[c]
+        ls = sorted(per_class[c], key=lambda l: (row[l], l))
+        cls = classes[c]
         for rank_in_class, l in enumerate(ls):
             kind = "primary" if primary[l] == c else "overlap"
             if rank_in_class > 0:
                 kind = "split"
                 splits += 1
-                total += classes[c].split_cost if rank_in_class == 1 else SPLIT_COST
+                total += cls.split_cost if rank_in_class == 1 else SPLIT_COST
             elif kind == "overlap":
                 overlaps += 1
                 total += OVERLAP_COST
-            total += cost[c, l]
-            cls, pk = classes[c], peaks[l]
-            entries.append(LineEntry(l, pk.shift, cls.shift, cls.sigma, cls.atoms, kind))
+            total += row[l]
+            entries.append(LineEntry(l, peaks[l].shift, cls.shift, cls.sigma, cls.atoms, kind))
     unfilled = tuple(l for l in range(nl) if l not in by_line)
     total += UNFILLED_COST * len(unfilled)
+    if entries:
+        total = np.float64(total)  # the type the sum over numpy costs always had
     entries.sort(key=lambda e: (e.peak_index, e.atoms))
     return Assignment(tuple(entries), total, overlaps, splits, unfilled)
 

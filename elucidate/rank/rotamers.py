@@ -115,6 +115,11 @@ ROTAMER_SPLIT_COST: dict[str, float] = {
 
 _PATTERNS = tuple((kind, Chem.MolFromSmarts(smarts)) for kind, smarts, _ in BOND_KINDS)
 _LABEL = 1000  # isotope used as the "cis" label; no real isotope is this heavy
+#: Matches every atom 0 of :data:`BOND_KINDS` (``[NX3;!a;D3;+0]`` and
+#: ``[nX3;+0]``): a molecule without one has no bond of any kind.
+_NITROGEN = Chem.MolFromSmarts("[#7X3+0]")
+#: Matches exactly the atoms that are atom 0 of some match of :data:`BOND_KINDS`.
+_ANY_KIND = Chem.MolFromSmarts("[" + ",".join(f"$({smarts})" for _, smarts, _ in BOND_KINDS) + "]")
 
 
 @dataclass(frozen=True)
@@ -170,6 +175,10 @@ def hindered_bonds(mol: Chem.Mol) -> tuple[HinderedBond, ...]:
         raise InputError(f"expected an RDKit molecule, got {type(mol).__name__}; "
                          "parse the SMILES with rdkit.Chem.MolFromSmiles first")
     found: dict[tuple[int, int], str] = {}
+    # quick exits: atom 0 of every pattern is such a nitrogen, and the union
+    # pattern matches every atom 0 of any kind
+    if not mol.HasSubstructMatch(_NITROGEN) or not mol.HasSubstructMatch(_ANY_KIND):
+        return ()
     for kind, pattern in _PATTERNS:
         for match in mol.GetSubstructMatches(pattern, uniquify=False):
             found.setdefault((match[0], match[1]), kind)
