@@ -140,6 +140,10 @@ class SolveResult:
     assumptions: tuple[str, ...] = ()
     #: reference spectra most similar to the observed one (plain dicts, best first)
     reference_neighbours: tuple[dict, ...] = ()
+    #: the strategies that ran: (name, structures, seconds, note)
+    search_steps: tuple[tuple[str, int, float, str], ...] = ()
+    #: why the search ended: "finished", "time limit" or "confident"
+    search_ended: str = ""
 
     @property
     def dbe(self) -> int:
@@ -276,6 +280,8 @@ def solve(
         constraint_log=tuple(outcome.log),
         unlisted_probability=1.0 - listed,
         search_how=how_sentence(outcome.strategies, outcome.ended, settings.time_limit),
+        search_steps=tuple((r.name, r.structures, round(r.seconds, 3), r.note) for r in outcome.strategies),
+        search_ended=outcome.ended,
         completeness_note=completeness_sentence(status, cost_bound, formula.carbons, settings.time_limit),
         assumptions=tuple(_assumptions(cons, settings, peaks)),
         reference_neighbours=tuple(_neighbours(peaks, formula, settings)),

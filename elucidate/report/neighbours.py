@@ -168,7 +168,7 @@ def render_neighbours_html(neighbours, *, heading: str = "Similar reference spec
     for k, n in enumerate(items, start=1):
         smiles = n["smiles"]
         try:
-            pic = depiction_svg(smiles, width=width, height=height)
+            pic = depiction_svg(smiles, width=width, height=height, numbered=False, css_class="neighbour")
         except InputError:
             pic = "<em>structure not drawable</em>"
         formula = e(str(n.get("formula") or "\u2013"))

@@ -121,7 +121,7 @@ def how_sentence(strategies: Sequence, ended: str, time_limit: float) -> str:
     for s in strategies:
         if s.structures <= 0 and s.seconds < 0.05:
             continue
-        parts.append(f"{s.name} ({s.structures:,} structures, {s.seconds:.1f} s)")
+        parts.append(f"{s.name} ({s.structures:,} structures)")
     why = {"finished": "it finished", "time limit": f"the time limit ({time_limit:g} s) was reached",
            "confident": "the calibrated chance of finding a better structure fell below 1 %"}.get(ended, ended)
     if not parts:
