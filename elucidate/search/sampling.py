@@ -33,6 +33,7 @@ from ..rank.scoring import ScoredStructure
 from .anneal import AnnealSchedule, ChainSpec, Evaluator, QuickCost, run_chain
 from .base import SearchProblem, StrategyReport
 from .moves import random_skeleton, skeleton_from_mol
+from .seeds import repair_to_formula
 from .plans import SCORE_S
 from .workers import run_local
 
@@ -43,7 +44,7 @@ SEED_COUNT = 240
 #: Chains restarted from an elite structure: shorter, cooler.
 ELITE_SCHEDULE = AnnealSchedule(steps=500, t_start=1.5, t_end=0.2, proposals=6)
 #: Chains from a fresh start: longer, hotter, after a warm-up on the quick cost.
-FRESH_SCHEDULE = AnnealSchedule(steps=900, t_start=3.0, t_end=0.25, proposals=6, warmup=4000)
+FRESH_SCHEDULE = AnnealSchedule(steps=900, t_start=3.0, t_end=0.25, proposals=6)
 #: Elite structures chains restart from (the best first).
 ELITE_WIDTH = 8
 #: Seconds kept free at the end for merging and ranking.
@@ -99,18 +100,53 @@ def _chain(state, local, payload):
     return run_chain(spec, _evaluator(state, local), state.cons.accept, state.valences, deadline, quick)
 
 
-def _neighbour_starts(problem: SearchProblem, k: int = 40) -> list[str]:
-    """SMILES of reference structures with the sample's formula, most similar
-    spectra first (starting points only, never answers by lookup)."""
+#: Reference spectra whose structures are edited into starting points.
+NEIGHBOUR_SEEDS = 40
+#: Edits tried per reference structure (different random choices).
+EDITS_PER_NEIGHBOUR = 3
+
+
+def _neighbour_seeds(problem: SearchProblem, state) -> list:
+    """Skeletons with the sample's formula made from the structures of the
+    most similar reference spectra (:mod:`.seeds`); starting points only,
+    never answers by lookup."""
     try:
         from ..reference import nearest_spectra
         from ..spectrum.peaks import PeakList
 
-        hits = nearest_spectra(PeakList(tuple(problem.peaks)), formula=problem.formula, k=k,
-                               same_formula_only=True, library=problem.library)
+        hits = nearest_spectra(PeakList(tuple(problem.peaks)), formula=problem.formula, k=NEIGHBOUR_SEEDS,
+                               library=problem.library)
     except InputError:  # no reference index to start from: the search does without
         return []
-    return [h.smiles for h in hits]
+    line_h = [p.hydrogens for p in problem.peaks]
+    out = []
+    seen = set()
+    for n, hit in enumerate(hits):
+        base = _start_from(hit.smiles)
+        if base is None:
+            continue
+        for t in range(EDITS_PER_NEIGHBOUR if not hit.same_formula else 1):
+            sk = repair_to_formula(base, problem.formula, problem.valences, line_h, state.cons.accept,
+                                   random.Random(1000 * n + t))
+            if sk is not None and sk.key() not in seen:
+                seen.add(sk.key())
+                out.append(sk)
+    return out
+
+
+def _evaluate_chunk(state, local, payload):
+    """Worker: (energy, SMILES, scored structure or None if it breaks a
+    constraint) of each skeleton, or None when it cannot be scored."""
+    ev = _evaluator(state, local)
+    out = []
+    for sk in payload:
+        res = ev.evaluate(sk)
+        if res is None:
+            out.append(None)
+            continue
+        e, _order = res
+        out.append((e.energy, e.smiles, e.scored))
+    return out
 
 
 def _start_from(smiles: str):
@@ -161,9 +197,33 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
     dists = list(type_distributions(problem.formula, problem.valences,
                                     charged_nitrogen=problem.charged_nitrogen, accept=state.cons.accept))
     rng = random.Random(0)
-    # fresh starts: reference structures of the same formula whose spectra
-    # resemble the sample's, then further structures of the cost-bounded list
-    fresh_pool = _neighbour_starts(problem) + [smi for _c, smi, _m in pool[len(seeds):]]
+    # fresh starts: reference structures whose spectra resemble the sample's,
+    # edited to the sample's formula (best first by full score), then further
+    # structures of the cost-bounded list
+    t_seed = time.monotonic()
+    neighbour_starts = _neighbour_seeds(problem, state)
+    if neighbour_starts:
+        parts = _map(executor, state, _evaluate_chunk,
+                     [neighbour_starts[k::workers] for k in range(workers)])
+        evaluated = []
+        for k, part in enumerate(parts):
+            for sk, out in zip(neighbour_starts[k::workers], part):
+                if out is None:
+                    continue
+                e, smi, item = out
+                evaluated.append((e, smi, sk))
+                if item is not None and smi not in elite:
+                    elite[smi] = (e, item)
+        evaluated.sort(key=lambda t: (t[0], t[1]))
+        seen_smiles: set[str] = set()
+        neighbour_starts = []
+        for e, smi, sk in evaluated:
+            if smi not in seen_smiles:
+                seen_smiles.add(smi)
+                neighbour_starts.append(sk)
+    reports.append(StrategyReport("reference analogues edited to the formula", len(neighbour_starts),
+                                  time.monotonic() - t_seed))
+    fresh_pool = neighbour_starts + [smi for _c, smi, _m in pool[len(seeds):]]
     per_round = max(2, 2 * workers)
     chain_index = 0
     found_by_sampling: set[str] = set()
@@ -191,8 +251,9 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
                 schedule = ELITE_SCHEDULE
             else:
                 schedule = FRESH_SCHEDULE
-                if fresh_turn < len(fresh_pool) and (fresh_turn % 2 == 0 or not dists):
-                    start = _start_from(fresh_pool[fresh_turn])
+                if fresh_turn < len(fresh_pool) and (fresh_turn % 3 != 2 or not dists):
+                    item = fresh_pool[fresh_turn]
+                    start = _start_from(item) if isinstance(item, str) else item
                 fresh_turn += 1
                 if start is None and dists:
                     start = random_skeleton(dists[rng.randrange(len(dists))], random.Random(seed))
