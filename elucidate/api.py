@@ -26,7 +26,7 @@ __all__ = ["solve", "check", "predict", "to_dict"]
 
 _SOLVE_OPTIONS = (
     "charged_nitrogen", "allow_all", "max_rings", "min_ring_size", "max_ring_size",
-    "environment_margin", "keep",
+    "environment_margin", "keep", "search", "chains", "libraries", "neighbours", "workers",
 )
 
 
@@ -93,11 +93,15 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
         SMILES every candidate must contain (e.g. a starting material's ring system).
     valences : dict, optional
         Allowed valences per element, e.g. ``{"S": (2, 4, 6)}`` (others keep the default).
-    progress : callable(int, float), optional
+    progress : callable(stage, structures_scored, elapsed_s, seconds_left), optional
+        Called now and then while the search runs.
     **options
         Further :class:`~elucidate.pipeline.SolveSettings` fields:
         ``charged_nitrogen``, ``allow_all``, ``max_rings``, ``min_ring_size``,
-        ``max_ring_size``, ``environment_margin``, ``keep``.
+        ``max_ring_size``, ``environment_margin``, ``keep``, ``search``
+        (``"auto"``, ``"bounded"`` or ``"sampling"``), ``chains`` (annealing
+        work budget), ``libraries`` (paths of the lab's own reference
+        libraries), ``neighbours`` (reference spectra listed), ``workers``.
 
     Returns
     -------
@@ -131,7 +135,9 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
     settings = SolveSettings(
         valences=tuple(vals.items()), require=_tuple_of_str(require, "require"),
         forbid=_tuple_of_str(forbid, "forbid"), scaffold=scaffold, solvent=solvent,
-        time_limit=float(time_limit), top=top, keep=max(options.pop("keep", 100), top), **options)
+        time_limit=float(time_limit), top=top, keep=max(options.pop("keep", 100), top),
+        **{k: (tuple(v) if k == "libraries" and not isinstance(v, str) else (v,) if k == "libraries" else v)
+           for k, v in options.items()})
     return run(formula, peaks, settings, progress=progress)
 
 

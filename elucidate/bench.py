@@ -25,7 +25,7 @@ from .cases import BANDS, read_cases
 from .errors import InputError
 from .formula import parse_formula
 from .rank.calibration import calibrated_scores, listed_chance, listed_probabilities
-from .pipeline import SolveSettings, approximate_cost, explain_constraints, solve
+from .pipeline import SolveSettings, approximate_cost, explain_constraints, prepare_peaks, solve
 from .spectrum.peaks import peaks_from_records
 
 __all__ = ["read_cases", "run_bench", "recalibrate_row", "format_bench_table", "calibration_table",
@@ -98,6 +98,10 @@ def run_bench(
                 # the probability calibration (rank/calibration.py)
                 fit_terms=[[c.fit_cost, c.prior] for c in result.candidates],
                 top_cost=_top_cost(result, formula, peaks, settings),
+                # sampling rounds (see SolveResult.search_trace), for the early-stop model
+                trace=[list(t) for t in result.search_trace],
+                ended=result.search_ended,
+                answer_energy=_answer_energy(answer_mol, formula, peaks, settings),
             )
         rows.append(row)
         if progress:
@@ -131,10 +135,31 @@ def recalibrate_row(row: dict, calibration) -> dict:
     if row.get("cost_bound") is not None and row.get("top_cost") is not None:
         # top_cost belongs to the row's own best; recomputing it for a new best needs the solve
         margin = row["cost_bound"] - row["top_cost"]
-    listed = listed_chance(row.get("status", ""), margin, row["heavy_atoms"], calibration)
+    trace = row.get("trace") or []
+    sampling = (trace[-1][3], trace[-1][5]) if trace and len(trace[-1]) > 5 else None
+    listed = listed_chance(row.get("status", ""), margin, row["heavy_atoms"], calibration, sampling)
     out["top_probability"] = round(listed * float(probs[best]), 4)
     out["unlisted_probability"] = round(1.0 - listed, 4)
     return out
+
+
+def _answer_energy(answer_mol, formula, peaks, settings) -> list | None:
+    """The answer's own (assignment cost, prior): where it would rank, and
+    whether a miss was the search's fault (a better-scoring answer unfound)
+    or the ranking's."""
+    if answer_mol is None:
+        return None
+    from .pipeline import _constraints
+    from .rank.scoring import score_structure
+
+    prepared = prepare_peaks(formula, peaks, settings.solvent)
+    rule = _constraints(formula, prepared, settings).rule
+    prior = (lambda m: settings.prior_weight * rule.table.mol_rarity(m)) if rule is not None else None
+    smiles = Chem.MolToSmiles(answer_mol, isomericSmiles=False)
+    scored = score_structure(smiles, answer_mol, prepared.peaks, prior)
+    if scored is None:
+        return None
+    return [round(scored.fit_cost, 4), round(scored.prior, 4)]
 
 
 def _top_cost(result, formula, peaks, settings) -> float | None:

@@ -204,6 +204,16 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Lines allowed beyond the carbon classes (diastereotopic/rotamer splitting).")
 @click.option("--scaffold", default=None, metavar="SMILES",
               help="Ring system every candidate must contain, e.g. a starting material's 'c1ccncc1'.")
+@click.option("--search", "search_mode", type=click.Choice(["auto", "bounded", "sampling"]), default="auto",
+              show_default=True,
+              help="auto: cost-bounded search with proofs first, annealing when it cannot finish; bounded: "
+                   "cost-bounded only (every statement a proof); sampling: annealing only.")
+@click.option("--chains", type=click.IntRange(min=1), default=None, metavar="N",
+              help="Stop annealing after N chains: a work budget, so a run that ends by it (not by the "
+                   "time limit) gives the same list on any machine. Default: until the time limit.")
+@_library_option
+@click.option("--neighbours", type=click.IntRange(min=0), default=5, show_default=True,
+              help="Reference spectra most similar to the sample's, listed with the result (0: none).")
 @click.option("--sample-id", default=None, metavar="ID", help="The lab's sample ID, shown in the report header.")
 @click.option("--analyst", default=None, metavar="NAME",
               help="Analyst's name for the report's sign-off block (blank lines when not given).")
@@ -211,7 +221,7 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Reviewer's name for the report's sign-off block (blank lines when not given).")
 def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90, valence, charged_nitrogen,
           require, forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
-          scaffold, sample_id, analyst, reviewer):
+          scaffold, search_mode, chains, libraries, neighbours, sample_id, analyst, reviewer):
     """Rank every structure consistent with a formula and a 13C peak list.
 
     Peaks: one line per signal, 'shift [multiplicity] [count]'; multiplicity
@@ -246,7 +256,8 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90
         require=tuple(require), forbid=tuple(forbid), max_rings=max_rings,
         min_ring_size=min_ring_size, max_ring_size=max_ring_size,
         symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
-        time_limit=time_limit, top=top, scaffold=scaffold,
+        time_limit=time_limit, top=top, scaffold=scaffold, search=search_mode, chains=chains,
+        libraries=tuple(libraries), neighbours=neighbours,
     )
     source = peaks
     if dept135 or dept90:
@@ -322,18 +333,20 @@ def report(result_file, fmt, top, output):
 
 
 def _progress_printer():
+    """Progress on a terminal only (stderr): stage, structures scored, time left."""
     if not sys.stderr.isatty():
         return None
 
-    def show(n, elapsed):
-        click.echo(f"\r  {n:,} structures ranked, {elapsed:.0f} s", err=True, nl=False)
+    def show(stage, n, elapsed, left):
+        text = f"  {stage}: {n:,} structures scored, {elapsed:.0f} s, {left:.0f} s left"
+        click.echo("\r" + text[:78].ljust(78), err=True, nl=False)
 
     return show
 
 
 def _clear_progress():
     if sys.stderr.isatty():
-        click.echo("\r" + " " * 50 + "\r", err=True, nl=False)
+        click.echo("\r" + " " * 78 + "\r", err=True, nl=False)
 
 
 # ----------------------------------------------------------------- predict

@@ -144,6 +144,9 @@ class SolveResult:
     search_steps: tuple[tuple[str, int, float, str], ...] = ()
     #: why the search ended: "finished", "time limit" or "confident"
     search_ended: str = ""
+    #: sampling rounds: (elapsed s, best energy, hits this round, rounds since gain, chains,
+    #: chains ending at the best, calibrated chance of a better structure)
+    search_trace: tuple[tuple, ...] = ()
 
     @property
     def dbe(self) -> int:
@@ -211,7 +214,7 @@ def solve(
     peaks,
     settings: SolveSettings | None = None,
     *,
-    progress: Callable[[int, float], None] | None = None,
+    progress: Callable[[str, int, float, float], None] | None = None,
 ) -> SolveResult:
     """Propose structures for a formula and a 13C peak list.
 
@@ -224,7 +227,8 @@ def solve(
     formula : Formula or str
     peaks : PeakList, peak text or path to a peak file
     settings : SolveSettings, optional
-    progress : callable(candidates_so_far, elapsed_s), optional
+    progress : callable(stage, structures_scored, elapsed_s, seconds_left), optional
+        Called now and then while the search runs (at most twice a second).
 
     Returns
     -------
@@ -238,6 +242,7 @@ def solve(
     peaks = prepare_peaks(formula, peaks, settings.solvent)
     start = time.monotonic()
     cons = _constraints(formula, peaks, settings)
+    library = _library(settings)
     rule = cons.rule
     prior = None
     if rule is not None and settings.prior_weight > 0:
@@ -248,7 +253,7 @@ def solve(
         charged_nitrogen=settings.charged_nitrogen, constraints=cons, prior=prior,
         time_limit=settings.time_limit, pool_size=_pool_size(settings), keep=settings.keep,
         workers=settings.workers, start=start, mode=settings.search, chains=settings.chains,
-        progress=(lambda stage, n, elapsed, left: progress(n, elapsed)) if progress is not None else None,
+        progress=progress, library=library,
     )
     outcome = run_search(problem)
 
@@ -259,7 +264,9 @@ def solve(
     margin = None
     if candidates and cost_bound is not None and rule is not None:
         margin = cost_bound - outcome.approximate_cost(candidates[0].smiles, rule)
-    listed = listed_chance(status, margin, formula.heavy_atoms, calibration) if candidates else 0.0
+    last = outcome.trace[-1] if outcome.trace else None
+    sampling = (last.rounds_since_gain, last.total_hits) if last is not None else None
+    listed = listed_chance(status, margin, formula.heavy_atoms, calibration, sampling) if candidates else 0.0
     candidates = [replace(c, probability=listed * c.probability) for c in candidates]
     warnings = list(peaks.warnings)
     if status != "complete" and candidates:
@@ -281,10 +288,11 @@ def solve(
         unlisted_probability=1.0 - listed,
         search_how=how_sentence(outcome.strategies, outcome.ended, settings.time_limit),
         search_steps=tuple((r.name, r.structures, round(r.seconds, 3), r.note) for r in outcome.strategies),
+        search_trace=tuple(tuple(t.as_list()) for t in outcome.trace),
         search_ended=outcome.ended,
         completeness_note=completeness_sentence(status, cost_bound, formula.carbons, settings.time_limit),
         assumptions=tuple(_assumptions(cons, settings, peaks)),
-        reference_neighbours=tuple(_neighbours(peaks, formula, settings)),
+        reference_neighbours=tuple(_neighbours(peaks, formula, settings, library)),
     )
 
 
@@ -300,14 +308,21 @@ def _assumptions(cons: ConstraintSet, settings: SolveSettings, peaks: PeakList) 
     )
 
 
-def _neighbours(peaks: PeakList, formula: Formula, settings: SolveSettings) -> list[dict]:
-    """The reference spectra most similar to the observed one (shipped index
-    plus the lab's own libraries)."""
+def _library(settings: SolveSettings):
+    """The reference library: the shipped index, plus the lab's own files."""
+    if not settings.libraries:
+        return None
+    from .reference import load_reference_libraries
+
+    return load_reference_libraries(settings.libraries, with_default=True)
+
+
+def _neighbours(peaks: PeakList, formula: Formula, settings: SolveSettings, library) -> list[dict]:
+    """The reference spectra most similar to the observed one."""
     if settings.neighbours <= 0:
         return []
-    from .reference import load_reference_libraries, nearest_spectra
+    from .reference import nearest_spectra
 
-    library = load_reference_libraries(settings.libraries, with_default=True) if settings.libraries else None
     return [h.to_dict() for h in nearest_spectra(peaks, formula=formula, k=settings.neighbours, library=library)]
 
 

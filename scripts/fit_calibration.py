@@ -29,7 +29,10 @@ from elucidate.rank.calibration import (
     DEFAULT_CALIBRATION_PATH,
     Calibration,
     fit_listed_model,
+    fit_logistic,
     fit_score_weights,
+    sampling_features,
+    stop_features,
     load_calibration,
 )
 
@@ -48,6 +51,21 @@ def _margin(row):
     return row["cost_bound"] - row["top_cost"]
 
 
+def _stop_data(data):
+    """Per sampling round of runs that went to the time limit: the state's
+    features and whether a better structure was found later in the run."""
+    xs, ys = [], []
+    for r in data:
+        trace = r.get("trace") or []
+        if not trace or r.get("ended") not in (None, "time limit"):
+            continue
+        final = trace[-1][1]
+        for k, t in enumerate(trace[:-1]):
+            xs.append(stop_features(t[3], t[5], r["heavy_atoms"], k + 1))
+            ys.append(final < t[1] - 1e-6)
+    return xs, ys
+
+
 def _fit(data, time_limit):
     """Calibration fitted on bench rows that carry fit_terms."""
     found = [(np.array([t[0] for t in r["fit_terms"]]), np.array([t[1] for t in r["fit_terms"]]), r["rank"] - 1)
@@ -56,16 +74,26 @@ def _fit(data, time_limit):
     complete = [r for r in data if r.get("status") == "complete"]
     n_found_complete = sum(r.get("rank") is not None for r in complete)
     listed_complete = (n_found_complete + 1) / (len(complete) + 2)
-    rest = [r for r in data if r.get("status") != "complete"]
+    rest = [r for r in data if r.get("status") not in ("complete", "sampled")]
     logit = None
     if len(rest) >= 10:
         logit = fit_listed_model([(_margin(r), r["heavy_atoms"]) for r in rest],
                                  [r.get("rank") is not None for r in rest])
+    sampled = [r for r in data if r.get("status") == "sampled" and r.get("trace")]
+    sampled_logit = None
+    if len(sampled) >= 10:
+        sampled_logit = fit_logistic(
+            [sampling_features(r["heavy_atoms"], r["trace"][-1][3], r["trace"][-1][5]) for r in sampled],
+            [r.get("rank") is not None for r in sampled])
+    stop_x, stop_y = _stop_data(data)
+    stop_logit = fit_logistic(stop_x, stop_y) if len(stop_x) >= 20 and 0 < sum(stop_y) < len(stop_y) else None
     bands = Counter(f"{r['heavy_atoms']}" for r in data)
     cal = Calibration(
         fit_weight=round(a, 4), prior_weight=round(b, 4),
         listed_when_complete=round(listed_complete, 4),
         listed_logit=tuple(round(x, 4) for x in logit) if logit else None,
+        sampled_logit=tuple(round(x, 4) for x in sampled_logit) if sampled_logit else None,
+        stop_logit=tuple(round(x, 4) for x in stop_logit) if stop_logit else None,
         provenance={
             "fitted": datetime.date.today().isoformat(),
             "method": "conditional logit weights + logistic listed-answer model (rank/calibration.py)",
@@ -79,6 +107,10 @@ def _fit(data, time_limit):
             "complete_with_answer": n_found_complete,
             "incomplete_searches": len(rest),
             "incomplete_with_answer": sum(r.get("rank") is not None for r in rest),
+            "sampled_searches": len(sampled),
+            "sampled_with_answer": sum(r.get("rank") is not None for r in sampled),
+            "sampling_rounds": len(stop_x),
+            "rounds_improved_later": int(sum(stop_y)),
             "heavy_atoms": dict(sorted(bands.items(), key=lambda kv: int(kv[0]))),
         },
     )
@@ -102,6 +134,18 @@ def fit(rows, out, time_limit):
     cal = _fit(data, time_limit)
     Path(out).write_text(json.dumps(cal.to_dict(), indent=1) + "\n", encoding="utf-8")
     click.echo(json.dumps(cal.to_dict(), indent=1))
+
+
+@main.command("heldout-start")
+@click.argument("out", type=click.Path(dir_okay=False))
+def heldout_start(out):
+    """Write the shipped calibration without its early-stop model to OUT (for held-out runs that
+    must go to the time limit)."""
+    import dataclasses
+
+    cal = dataclasses.replace(load_calibration(), stop_logit=None)
+    Path(out).write_text(json.dumps(cal.to_dict(), indent=1) + "\n", encoding="utf-8")
+    click.echo(f"wrote {out}")
 
 
 @main.command()

@@ -17,7 +17,8 @@ from elucidate.cli import main
 
 ROOT = Path(__file__).resolve().parents[1]
 SCENARIOS = sorted(p.parent for p in (ROOT / "scenarios").glob("*/scenario.json") if
-                   "peaks" in json.loads(p.read_text()) and "formula" in json.loads(p.read_text()))
+                   "peaks" in json.loads(p.read_text()) and "formula" in json.loads(p.read_text())
+                   and not json.loads(p.read_text()).get("large"))
 TOP_KEYS = {"formula", "dbe", "complete", "candidates_generated", "elapsed_s", "warnings", "candidates",
             "constraint_log"}
 CAND_KEYS = {"smiles", "score", "mae_ppm", "max_error_ppm", "assignment"}
@@ -50,6 +51,24 @@ def test_scenario_solves_completely_with_known_answer(folder):
             assert all(0 <= a < n_atoms and mol.GetAtomWithIdx(a).GetSymbol() == "C" for a in entry["atoms"])
     smiles = [c["smiles"] for c in data["candidates"]]
     assert _canon(meta["confirmed"]) in smiles
+
+
+LARGE = sorted(p.parent for p in (ROOT / "scenarios").glob("*/scenario.json") if json.loads(p.read_text()).get("large"))
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("folder", LARGE, ids=[p.name for p in LARGE])
+def test_large_scenario_puts_the_confirmed_structure_first(folder):
+    # too large to enumerate: found by the search strategies, stated as such
+    meta = json.loads((folder / "scenario.json").read_text())
+    args = ["solve", "--formula", meta["formula"], "--peaks", str(folder / meta["peaks"]),
+            "--format", "json", "--solvent", meta["solvent"], "--time-limit", "60"]
+    result = CliRunner().invoke(main, args)
+    assert result.exit_code == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert data["candidates"][0]["smiles"] == _canon(meta["confirmed"])
+    assert data["completeness"]["statement"] and data["completeness"]["how"]
+    assert Chem.MolFromSmiles(meta["confirmed"]).GetNumAtoms() >= 16
 
 
 def test_small_scenarios_exist():

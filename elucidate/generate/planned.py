@@ -479,7 +479,8 @@ class PlanSearch:
 def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep: int,
                  deadline: float | None = None, accept_mol: Callable | None = None,
                  half: int | None = None, reserve: float = 0.0,
-                 max_order: Callable[[AtomType, AtomType], int] | None = None) -> PlanSearch:
+                 max_order: Callable[[AtomType, AtomType], int] | None = None,
+                 stall: float | None = None) -> PlanSearch:
     """Structures of the given distributions in increasing approximate cost.
 
     One :class:`PlanStream` per distribution; the globally cheapest pending
@@ -489,7 +490,9 @@ def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep:
     ``half`` (0 or 1) every stream keeps only that half of its plans
     (:meth:`PlanStream.split`), so two processes can share the work.
     ``reserve`` seconds per structure found are kept free before
-    ``deadline`` (for the caller to score them).
+    ``deadline`` (for the caller to score them).  With ``stall``, the
+    search also stops when ``stall`` seconds pass without a new structure
+    (its yield has dried up; the bound proven so far still holds).
     """
     import heapq
     from collections import deque
@@ -507,12 +510,19 @@ def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep:
     found: dict = {}
     plans = 0
 
+    last_found = [time.monotonic()]
+
     def until():
-        return None if deadline is None else deadline - reserve * len(found)
+        limit = None if deadline is None else deadline - reserve * len(found)
+        if stall is not None:
+            dry = last_found[0] + stall
+            limit = dry if limit is None else min(limit, dry)
+        return limit
 
     try:
         while heap and len(found) < keep:
-            if deadline is not None and time.monotonic() > until():
+            limit = until()
+            if limit is not None and time.monotonic() > limit:
                 break
             cost, i, plan = heap[0]
             if plan is None:
@@ -537,6 +547,7 @@ def search_plans(dists: Sequence[Sequence[AtomType]], costs: PlanCosts, *, keep:
                 if smi in found or (accept_mol is not None and not accept_mol(mol)):
                     continue
                 found[smi] = (cost, mol)
+                last_found[0] = time.monotonic()
             heapq.heappop(heap)
             plans += 1
             nxt = queued[i].popleft() if queued[i] else streams[i].next(until())

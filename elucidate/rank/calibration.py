@@ -54,8 +54,12 @@ __all__ = [
     "calibrated_scores",
     "listed_probabilities",
     "listed_chance",
+    "better_chance",
     "fit_score_weights",
     "fit_listed_model",
+    "fit_logistic",
+    "sampling_features",
+    "stop_features",
 ]
 
 DEFAULT_CALIBRATION_PATH = Path(__file__).resolve().parent.parent / "data" / "calibration.json"
@@ -69,6 +73,10 @@ class Calibration:
     prior_weight: float = 1.0
     listed_when_complete: float = 1.0
     listed_logit: tuple[float, float, float] | None = None  # (c0, c1, c2); None: q = 1
+    #: listed-answer model for sampled results: (s0, s_heavy, s_since, s_hits); None: the bounded model
+    sampled_logit: tuple[float, float, float, float] | None = None
+    #: early stop of sampling: (d0, d_since, d_hits, d_heavy, d_rounds); None: never stop early
+    stop_logit: tuple[float, float, float, float, float] | None = None
     provenance: dict = field(default_factory=dict, compare=False)
 
     def __post_init__(self):
@@ -85,6 +93,8 @@ class Calibration:
             "prior_weight": self.prior_weight,
             "listed_when_complete": self.listed_when_complete,
             "listed_logit": list(self.listed_logit) if self.listed_logit is not None else None,
+            "sampled_logit": list(self.sampled_logit) if self.sampled_logit is not None else None,
+            "stop_logit": list(self.stop_logit) if self.stop_logit is not None else None,
             "provenance": self.provenance,
         }
 
@@ -107,11 +117,15 @@ def load_calibration(path: str | Path | None = None) -> Calibration:
         else:
             d = json.loads(p.read_text(encoding="utf-8"))
             logit = d.get("listed_logit")
+            sampled = d.get("sampled_logit")
+            stop = d.get("stop_logit")
             _LOADED[key] = Calibration(
                 fit_weight=float(d["fit_weight"]),
                 prior_weight=float(d["prior_weight"]),
                 listed_when_complete=float(d["listed_when_complete"]),
                 listed_logit=tuple(float(x) for x in logit) if logit is not None else None,
+                sampled_logit=tuple(float(x) for x in sampled) if sampled is not None else None,
+                stop_logit=tuple(float(x) for x in stop) if stop is not None else None,
                 provenance=d.get("provenance", {}),
             )
     return _LOADED[key]
@@ -140,15 +154,52 @@ def _sigmoid(x: float) -> float:
 
 
 def listed_chance(status: str, margin: float | None, heavy_atoms: int,
-                  calibration: Calibration) -> float:
-    """Probability that the answer is among the listed structures."""
+                  calibration: Calibration, sampling: tuple[int, int] | None = None) -> float:
+    """Probability that the answer is among the listed structures.
+
+    ``sampling`` is ``(rounds since the best improved, chains that ended at
+    the best)`` of a sampled result.  A search that is not complete is never
+    more sure than a complete one (an exhaustive search examined everything
+    a partial one did): its chance is capped at the complete searches' rate.
+    """
     if status == "complete":
         return calibration.listed_when_complete
-    if calibration.listed_logit is None:
-        return 1.0
-    c0, c1, c2 = calibration.listed_logit
-    m = max(0.0, margin) if margin is not None else 0.0
-    return _sigmoid(c0 + c1 * m + c2 * heavy_atoms / 10.0)
+    if status == "sampled" and calibration.sampled_logit is not None and sampling is not None:
+        s0, *ws = calibration.sampled_logit
+        since, hits = sampling
+        q = _sigmoid(s0 + sum(w * x for w, x in zip(ws, sampling_features(heavy_atoms, since, hits))))
+    elif calibration.listed_logit is None:
+        q = 1.0
+    else:
+        c0, c1, c2 = calibration.listed_logit
+        m = max(0.0, margin) if margin is not None else 0.0
+        q = _sigmoid(c0 + c1 * m + c2 * heavy_atoms / 10.0)
+    return min(q, calibration.listed_when_complete)
+
+
+def sampling_features(heavy_atoms: int, since_gain: int, total_hits: int) -> tuple[float, float, float]:
+    """Features of the sampled listed-answer model (see :func:`listed_chance`)."""
+    return heavy_atoms / 10.0, float(min(since_gain, 10)), float(min(total_hits, 10))
+
+
+def stop_features(since_gain: int, total_hits: int, heavy_atoms: int, rounds: int) -> tuple[float, ...]:
+    """Features of the early-stop model (see :func:`better_chance`)."""
+    return float(min(since_gain, 10)), float(min(total_hits, 10)), heavy_atoms / 10.0, min(rounds, 40) / 10.0
+
+
+def better_chance(since_gain: int, total_hits: int, rounds: int, heavy_atoms: int,
+                  calibration: Calibration) -> float | None:
+    """Calibrated chance that more annealing (to the time limit) finds a
+    structure better than the best so far; None without a fitted model.
+
+    A logistic model of the sampling state (rounds since the best last
+    improved, chains that ended at the best, rounds so far, size), fitted on
+    held-out runs that ran to the time limit (``scripts/fit_calibration.py``).
+    """
+    if calibration.stop_logit is None:
+        return None
+    d0, *ws = calibration.stop_logit
+    return _sigmoid(d0 + sum(w * x for w, x in zip(ws, stop_features(since_gain, total_hits, heavy_atoms, rounds))))
 
 
 # ---------------------------------------------------------------- fitting
@@ -185,22 +236,36 @@ def fit_score_weights(cases: Sequence[tuple[np.ndarray, np.ndarray, int]],
     return float(theta[0]), float(theta[1])
 
 
-def fit_listed_model(features: Sequence[tuple[float, float]], listed: Sequence[bool],
-                     ridge: float = 1e-2, iterations: int = 100) -> tuple[float, float, float]:
-    """Logistic regression ``logit q = c0 + c1 margin + c2 heavy/10`` by
-    Newton's method with a small ridge penalty (keeps the fit finite when
-    the classes separate)."""
-    if len(features) != len(listed) or not features:
-        raise ValueError("fit_listed_model needs one (margin, heavy_atoms) pair per outcome")
-    x = np.array([[1.0, max(0.0, m), h / 10.0] for m, h in features])
-    y = np.array([1.0 if v else 0.0 for v in listed])
-    w = np.zeros(3)
+def fit_logistic(features: Sequence[Sequence[float]], outcomes: Sequence[bool],
+                 ridge: float = 1e-2, iterations: int = 100) -> tuple[float, ...]:
+    """Logistic regression ``logit p = w0 + w . x`` by Newton's method with a
+    small ridge penalty (keeps the fit finite when the classes separate).
+
+    >>> w = fit_logistic([[0.0], [0.0], [1.0], [1.0]], [False, True, True, True])
+    >>> w[1] > 0
+    True
+    """
+    if len(features) != len(outcomes) or not features:
+        raise ValueError("fit_logistic needs one feature row per outcome")
+    x = np.array([[1.0] + [float(v) for v in row] for row in features])
+    y = np.array([1.0 if v else 0.0 for v in outcomes])
+    k = x.shape[1]
+    w = np.zeros(k)
     for _ in range(iterations):
         p = 1.0 / (1.0 + np.exp(-(x @ w)))
         grad = x.T @ (y - p) - ridge * w
-        hess = -(x * (p * (1 - p))[:, None]).T @ x - ridge * np.eye(3)
+        hess = -(x * (p * (1 - p))[:, None]).T @ x - ridge * np.eye(k)
         step = np.linalg.solve(hess, grad)
         w = w - step
         if np.abs(step).max() < 1e-10:
             break
-    return float(w[0]), float(w[1]), float(w[2])
+    return tuple(float(v) for v in w)
+
+
+def fit_listed_model(features: Sequence[tuple[float, float]], listed: Sequence[bool],
+                     ridge: float = 1e-2, iterations: int = 100) -> tuple[float, float, float]:
+    """Logistic regression ``logit q = c0 + c1 margin + c2 heavy/10`` (see
+    :func:`fit_logistic`)."""
+    if len(features) != len(listed) or not features:
+        raise ValueError("fit_listed_model needs one (margin, heavy_atoms) pair per outcome")
+    return fit_logistic([(max(0.0, m), h / 10.0) for m, h in features], listed, ridge, iterations)

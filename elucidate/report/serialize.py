@@ -78,6 +78,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
         "complete": result.complete,
         "completeness": _completeness(result),
         "search": {"ended": result.search_ended,
+                   "rounds": [list(t) for t in result.search_trace],
                    "strategies": [{"name": n, "structures": k, "seconds": sec, "note": note}
                                   for n, k, sec, note in result.search_steps]},
         "unlisted_probability": _num(result.unlisted_probability, 4),

@@ -22,7 +22,8 @@ __all__ = ["plan_shard", "SCORE_S"]
 SCORE_S = 0.004
 
 
-def plan_shard(state, shard: int, n: int, keep: int, deadline: float, as_binary: bool):
+def plan_shard(state, shard: int, n: int, keep: int, deadline: float, as_binary: bool,
+               stall: float | None = None):
     """The plan search on shard ``shard`` of ``n``: every n-th distribution,
     or, with two processes and fewer than four distributions, one half of
     every distribution's plans."""
@@ -44,7 +45,7 @@ def plan_shard(state, shard: int, n: int, keep: int, deadline: float, as_binary:
 
     # each process reserves scoring time for its share as if it were all
     out = search_plans(dists, costs, keep=keep, deadline=deadline, accept_mol=accept_mol, half=half,
-                       reserve=SCORE_S * n)
+                       reserve=SCORE_S * n, stall=stall)
     if as_binary:
         out.found = {smi: (c, mol.ToBinary()) for smi, (c, mol) in out.found.items()}
     return out

@@ -29,6 +29,7 @@ from rdkit import Chem
 
 from ..errors import InputError
 from ..generate.atomtypes import type_distributions
+from ..rank.calibration import better_chance, load_calibration
 from ..rank.scoring import ScoredStructure
 from .anneal import AnnealSchedule, ChainSpec, Evaluator, QuickCost, run_chain
 from .base import SearchProblem, StrategyReport
@@ -47,6 +48,12 @@ ELITE_SCHEDULE = AnnealSchedule(steps=500, t_start=1.5, t_end=0.2, proposals=6)
 FRESH_SCHEDULE = AnnealSchedule(steps=900, t_start=3.0, t_end=0.25, proposals=6)
 #: Elite structures chains restart from (the best first).
 ELITE_WIDTH = 8
+#: Chains per round (fixed, so that results do not depend on the number of
+#: processes; with two processes each runs two per round).
+CHAINS_PER_ROUND = 4
+#: Annealing stops early when the calibrated chance that the remaining time
+#: would find a better-scoring structure falls below this.
+STOP_BELOW = 0.01
 #: Seconds kept free at the end for merging and ranking.
 _FINISH_S = 0.5
 
@@ -57,9 +64,16 @@ class RoundTrace:
 
     elapsed: float
     best_energy: float
-    best_hits: int  # chains whose best structure is the overall best
+    best_hits: int  # chains of this round whose best structure is the overall best
     rounds_since_gain: int
     chains: int
+    total_hits: int = 0  # chains so far whose best structure is the overall best
+    better_chance: float | None = None  # calibrated chance that more time finds a better structure
+
+    def as_list(self) -> list:
+        return [round(self.elapsed, 2), round(self.best_energy, 4), self.best_hits, self.rounds_since_gain,
+                self.chains, self.total_hits,
+                None if self.better_chance is None else round(self.better_chance, 4)]
 
 
 @dataclass
@@ -104,6 +118,42 @@ def _chain(state, local, payload):
 NEIGHBOUR_SEEDS = 40
 #: Edits tried per reference structure (different random choices).
 EDITS_PER_NEIGHBOUR = 3
+
+
+#: A chain *yields* when its best structure is new and better than the
+#: TOP_FOR_YIELD-th best known before its round.
+TOP_FOR_YIELD = 5
+
+
+def _allocate(size: int, runs: dict, gains: dict, available: dict) -> list[str]:
+    """Kinds of start for the next round's chains, shared by measured yield.
+
+    Each kind's yield is estimated as (gains + 1) / (runs + 2) (the mean of
+    a Beta(1, 1) prior updated with its chains: Laplace's rule of
+    succession, from memory); the round's chains go to the kinds in
+    proportion, by largest remainder, at least one to the elite and one to
+    a fresh kind while they are available.  Deterministic: counts only.
+    """
+    kinds = [k for k in ("elite", "analogue", "pool", "random") if available.get(k)]
+    if not kinds:
+        return []
+    rate = {k: (gains[k] + 1.0) / (runs[k] + 2.0) for k in kinds}
+    total = sum(rate.values())
+    share = {k: size * rate[k] / total for k in kinds}
+    out = {k: int(share[k]) for k in kinds}
+    fresh = [k for k in kinds if k != "elite"]
+    if "elite" in kinds and out["elite"] == 0 and size >= 2:
+        out["elite"] = 1
+    if fresh and sum(out[k] for k in fresh) == 0 and size >= 2:
+        best_fresh = max(fresh, key=lambda k: (rate[k], -kinds.index(k)))
+        out[best_fresh] = 1
+    while sum(out.values()) > size:
+        k = max(kinds, key=lambda k: (out[k] - share[k], kinds.index(k)))
+        out[k] -= 1
+    while sum(out.values()) < size:
+        k = max(kinds, key=lambda k: (share[k] - out[k], -kinds.index(k)))
+        out[k] += 1
+    return [k for k in kinds for _ in range(out[k])]
 
 
 def _neighbour_seeds(problem: SearchProblem, state) -> list:
@@ -223,8 +273,15 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
                 neighbour_starts.append(sk)
     reports.append(StrategyReport("reference analogues edited to the formula", len(neighbour_starts),
                                   time.monotonic() - t_seed))
-    fresh_pool = neighbour_starts + [smi for _c, smi, _m in pool[len(seeds):]]
-    per_round = max(2, 2 * workers)
+    # starting points by kind; the rounds share their chains among the kinds
+    # by measured yield (see _allocate)
+    sources = {
+        "analogue": list(neighbour_starts),  # reference analogues edited to the formula
+        "pool": [smi for _c, smi, _m in pool[len(seeds):]],  # further cost-bounded structures
+    }
+    taken = {"elite": 0, "analogue": 0, "pool": 0, "random": 0}
+    runs = {k: 0 for k in taken}
+    gains = {k: 0 for k in taken}
     chain_index = 0
     found_by_sampling: set[str] = set()
     visited = 0
@@ -232,44 +289,55 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
     best_energy = min((e for e, _s in elite.values()), default=float("inf"))
     since_gain = 0
     ended = "time limit"
-    elite_turn = 0
-    fresh_turn = 0
     budget = problem.chains
+    chain_bests: dict[str, int] = {}
+    cal = load_calibration()
     while time.monotonic() < end - 0.3:
         if budget is not None and chain_index >= budget:
             ended = "finished"
             break
         ranked = sorted(elite.items(), key=lambda kv: (kv[1][0], kv[0]))
+        size = CHAINS_PER_ROUND if budget is None else min(CHAINS_PER_ROUND, budget - chain_index)
+        available = {"elite": bool(ranked), "analogue": taken["analogue"] < len(sources["analogue"]),
+                     "pool": taken["pool"] < len(sources["pool"]), "random": bool(dists)}
+        kinds = _allocate(size, runs, gains, available)
         specs = []
-        for c in range(per_round if budget is None else min(per_round, budget - chain_index)):
+        spec_kind = {}
+        for kind in kinds:
             seed = chain_index
             start = None
-            if c % 2 == 0 and ranked:
-                smi = ranked[elite_turn % min(ELITE_WIDTH, len(ranked))][0]
-                elite_turn += 1
+            schedule = FRESH_SCHEDULE
+            if kind == "elite":
+                smi = ranked[taken["elite"] % min(ELITE_WIDTH, len(ranked))][0]
                 start = _start_from(smi)
                 schedule = ELITE_SCHEDULE
-            else:
-                schedule = FRESH_SCHEDULE
-                if fresh_turn < len(fresh_pool) and (fresh_turn % 3 != 2 or not dists):
-                    item = fresh_pool[fresh_turn]
-                    start = _start_from(item) if isinstance(item, str) else item
-                fresh_turn += 1
-                if start is None and dists:
-                    start = random_skeleton(dists[rng.randrange(len(dists))], random.Random(seed))
+            elif kind in ("analogue", "pool"):
+                item = sources[kind][taken[kind]]
+                start = _start_from(item) if isinstance(item, str) else item
+            elif kind == "random":
+                start = random_skeleton(dists[rng.randrange(len(dists))], random.Random(seed))
+            taken[kind] += 1
             if start is None:
                 chain_index += 1
                 continue
             specs.append(ChainSpec(chain_index, seed, start, schedule))
+            spec_kind[chain_index] = kind
             chain_index += 1
         if not specs:
             break
         results = _map(executor, state, _chain, [(spec, end) for spec in specs])
         round_best = []
+        top = sorted(e for e, _s in elite.values())[:TOP_FOR_YIELD]
+        cut_off = top[-1] if len(top) == TOP_FOR_YIELD else float("inf")
         for res in sorted(results, key=lambda r: r.index):
             visited += res.evaluations
+            kind = spec_kind[res.index]
+            runs[kind] += 1
             if res.best:
                 round_best.append(res.best[0][1].smiles)
+                chain_bests[res.best[0][1].smiles] = chain_bests.get(res.best[0][1].smiles, 0) + 1
+                if res.best[0][0] < cut_off - 1e-9 and res.best[0][1].smiles not in elite:
+                    gains[kind] += 1  # a new structure among the best known
             for e, item in res.best:
                 if item.smiles not in elite:
                     elite[item.smiles] = (e, item)
@@ -278,10 +346,18 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
         since_gain = 0 if new_best < best_energy - 1e-9 else since_gain + 1
         best_energy = new_best
         best_smiles = min(elite.items(), key=lambda kv: (kv[1][0], kv[0]))[0] if elite else None
+        total_hits = chain_bests.get(best_smiles, 0)
+        chance = better_chance(since_gain, total_hits, len(trace) + 1, problem.formula.heavy_atoms, cal)
         trace.append(RoundTrace(time.monotonic() - problem.start, best_energy,
-                                sum(1 for s in round_best if s == best_smiles), since_gain, len(specs)))
+                                sum(1 for s in round_best if s == best_smiles), since_gain, len(specs),
+                                total_hits, chance))
         problem.report("annealing", len(elite))
         if any(r.cut for r in results):
+            break
+        if budget is None and chance is not None and chance < STOP_BELOW:
+            # the calibrated chance that the rest of the time finds a better
+            # structure is too small to be worth the wait
+            ended = "confident"
             break
     reports.append(StrategyReport("annealing (simulated, restarted from the best so far)", visited,
                                   time.monotonic() - t1, f"{chain_index} chains in {len(trace)} rounds"))

@@ -50,8 +50,10 @@ FIRST_PASS_SHARE = 0.15
 #: (the rest is reserved for scoring the pool).
 GENERATION_SHARE = 0.7
 #: With sampling on, the plan search hands over to annealing at this share
-#: of the time limit.
+#: of the time limit ...
 PLAN_SHARE = 0.25
+#: ... or when it has found nothing new for this share of the time limit.
+PLAN_STALL_SHARE = 0.05
 
 
 def rank_key(item: ScoredStructure):
@@ -191,13 +193,16 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
             # which proves its own bound whatever time is left, running on
             # until what remains is the time to score the pool it finds.
             t1 = time.monotonic()
+            stall = None
             if problem.sampling:
-                # the plan search hands over to sampling at this point
+                # the plan search hands over to sampling at this point, or
+                # earlier when its yield dries up
                 plan_deadline = start + problem.time_limit * PLAN_SHARE
+                stall = problem.time_limit * PLAN_STALL_SHARE
             else:
                 plan_deadline = max(gen_deadline, start + problem.time_limit - 1.0 - SCORE_S * len(found))
-            plan_runs = (executor.run_plans(pool_size, plan_deadline) if executor
-                         else plan_shard(state, 0, 1, pool_size, plan_deadline, False))
+            plan_runs = (executor.run_plans(pool_size, plan_deadline, stall) if executor
+                         else plan_shard(state, 0, 1, pool_size, plan_deadline, False, stall))
             reports.append(StrategyReport("environment plans", len(plan_runs.found), time.monotonic() - t1,
                                           f"{plan_runs.plans} plans, {plan_runs.solves} CP-SAT solves"))
             if problem.sampling:

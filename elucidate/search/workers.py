@@ -29,8 +29,8 @@ def _pass_in_child(args) -> PassOutcome:
 
 
 def _plan_in_child(args):
-    shard, n, keep, deadline = args
-    return plan_shard(_FORK_STATE, shard, n, keep, deadline, True)
+    shard, n, keep, deadline, stall = args
+    return plan_shard(_FORK_STATE, shard, n, keep, deadline, True, stall)
 
 
 def _call_in_child(args):
@@ -59,12 +59,12 @@ class WorkerPool:
                            sum(p.checked for p in parts), sum(p.rejected for p in parts),
                            min(p.dropped_min for p in parts), sum(p.n_found for p in parts))
 
-    def run_plans(self, keep: int, deadline: float):
+    def run_plans(self, keep: int, deadline: float, stall: float | None = None):
         """The plan search shared by the processes; the union's bound is the
         smallest of the parts' bounds."""
         from ..generate.planned import PlanSearch
 
-        parts = self.pool.map(_plan_in_child, [(i, self.n, keep, deadline) for i in range(self.n)])
+        parts = self.pool.map(_plan_in_child, [(i, self.n, keep, deadline, stall) for i in range(self.n)])
         return PlanSearch(merge_found(parts), min(p.lower for p in parts), all(p.exhausted for p in parts),
                           sum(p.plans for p in parts), sum(p.solves for p in parts))
 
