@@ -57,14 +57,16 @@ def run_bench(
     every: int = 1,
     time_limit: float = 60.0,
     keep: int = 100,
+    search: str = "auto",
     progress: Callable[[str], None] | None = None,
+    on_row: Callable[[dict], None] | None = None,
 ) -> list[dict]:
-    """Solve every case; one result row per case."""
+    """Solve every case; one result row per case (``on_row`` gets each as it is done)."""
     if mode not in ("mult", "plain", "count"):
         raise InputError(f"mode {mode!r} unknown; use mult, plain or count")
     rows = []
     cases = read_cases(path, limit, heavy, every)
-    settings = SolveSettings(time_limit=time_limit, top=keep, keep=keep)
+    settings = SolveSettings(time_limit=time_limit, top=keep, keep=keep, search=search)
     for i, case in enumerate(cases, 1):
         formula = parse_formula(case["formula"])
         answer = _canon(case["answer"])
@@ -104,6 +106,8 @@ def run_bench(
                 answer_energy=_answer_energy(answer_mol, formula, peaks, settings),
             )
         rows.append(row)
+        if on_row is not None:
+            on_row(row)
         if progress:
             progress(f"[{i}/{len(cases)}] {row['id']} {row['formula']}: rank {row['rank']} "
                      f"({row['elapsed_s']} s)")

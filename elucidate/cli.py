@@ -421,8 +421,11 @@ _NO_CARBON_NOTE = "no carbon atoms: nothing to predict"
               help="Use every N-th case (a spread-out sample).")
 @click.option("--time-limit", type=click.FloatRange(min=0, min_open=True), default=60.0, show_default=True,
               help="Seconds per case.")
-@click.option("--output", "-o", default=None, help="Also write per-case results (JSON lines) here.")
-def bench(cases, mode, limit, heavy, every, time_limit, output):
+@click.option("--search", "search_mode", type=click.Choice(["auto", "bounded", "sampling"]), default="auto",
+              show_default=True, help="Search strategies, as for 'solve --search'.")
+@click.option("--output", "-o", default=None,
+              help="Also write per-case results (JSON lines) here, each as soon as it is done.")
+def bench(cases, mode, limit, heavy, every, time_limit, search_mode, output):
     """Measure elucidation on a case file (JSON lines with formula, peaks, answer).
 
     Prints top-1/top-5/found rates and times per heavy-atom band.
@@ -440,10 +443,25 @@ def bench(cases, mode, limit, heavy, every, time_limit, output):
         if lo > hi:
             raise InputError(f"--heavy {heavy!r}: the lower bound exceeds the upper one; write e.g. {hi}-{lo}")
         band = (lo, hi)
-    rows = run_bench(cases, mode=mode, limit=limit, heavy=band, every=every, time_limit=time_limit,
-                     progress=(lambda msg: click.echo(msg, err=True)) if sys.stderr.isatty() else None)
+    sink = None
     if output:
-        _write("".join(json.dumps(r) + "\n" for r in rows), output)
+        try:
+            sink = open(output, "w", encoding="utf-8")  # rows are written as they come
+        except OSError as exc:
+            raise InputError(f"cannot write output file {output!r}: {exc.strerror}") from None
+
+    def write_row(row):
+        if sink is not None:
+            sink.write(json.dumps(row) + "\n")
+            sink.flush()
+
+    try:
+        rows = run_bench(cases, mode=mode, limit=limit, heavy=band, every=every, time_limit=time_limit,
+                         search=search_mode, on_row=write_row,
+                         progress=(lambda msg: click.echo(msg, err=True)) if sys.stderr.isatty() else None)
+    finally:
+        if sink is not None:
+            sink.close()
     click.echo(format_bench_table(rows, mode=mode))
 
 
