@@ -96,9 +96,10 @@ def run_bench(
                 candidates=result.candidates_generated,
                 top_probability=round(result.candidates[0].probability, 4) if result.candidates else None,
                 unlisted_probability=round(result.unlisted_probability, 4),
-                # per listed candidate: (assignment cost, prior), for refitting
-                # the probability calibration (rank/calibration.py)
-                fit_terms=[[c.fit_cost, c.prior] for c in result.candidates],
+                # per listed candidate: (assignment cost, rarity prior,
+                # plausibility), for refitting the probability calibration
+                # (rank/calibration.py)
+                fit_terms=[[c.fit_cost, c.prior, c.plausibility] for c in result.candidates],
                 top_cost=_top_cost(result, formula, peaks, settings),
                 # sampling rounds (see SolveResult.search_trace), for the early-stop model
                 trace=[list(t) for t in result.search_trace],
@@ -119,8 +120,9 @@ def recalibrate_row(row: dict, calibration) -> dict:
 
     The search does not depend on the calibration, only the final order and
     the probabilities do; they are recomputed from the row's ``fit_terms``
-    (assignment cost and prior of every listed candidate), ``status``,
-    ``cost_bound`` and ``top_cost``.  The answer's new rank counts the
+    (assignment cost, prior and plausibility of every listed candidate;
+    rows written before the plausibility term carry two terms and count it
+    as 0), ``status``, ``cost_bound`` and ``top_cost``.  The answer's new rank counts the
     candidates with a strictly lower calibrated score (ties go to the answer).
     """
     terms = row.get("fit_terms")
@@ -128,7 +130,8 @@ def recalibrate_row(row: dict, calibration) -> dict:
         return dict(row)
     f = [t[0] for t in terms]
     r = [t[1] for t in terms]
-    scores = calibrated_scores(f, r, calibration)
+    v = [t[2] if len(t) > 2 else 0.0 for t in terms]
+    scores = calibrated_scores(f, r, calibration, v)
     probs = listed_probabilities(scores)
     best = int(np.argmin(scores))
     out = dict(row)

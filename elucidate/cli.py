@@ -574,29 +574,36 @@ def batch(samples, output, workers, time_limit, top, force, html, cluster, analy
               help="Environment table to write (default: the package's shipped table).")
 @click.option("--reference-output", "reference_path", type=click.Path(dir_okay=False), default=None,
               help="Reference index to write (default: the package's shipped index).")
-@click.option("--only", type=click.Choice(["tables", "reference"]), default=None,
-              help="Build only the shift and environment tables (minutes), or only the reference "
-              "index of the spectra (seconds); default: both.")
+@click.option("--plausibility-output", "plausibility_path", type=click.Path(dir_okay=False), default=None,
+              help="Plausibility table to write (default: the package's shipped table).")
+@click.option("--only", type=click.Choice(["tables", "reference", "plausibility"]), default=None,
+              help="Build only the shift and environment tables (minutes), only the reference "
+              "index of the spectra (seconds), or only the plausibility table of the training "
+              "constitutions (seconds); default: all.")
 @click.option("--limit", type=click.IntRange(min=1), default=None, help="Use only the first N spectra (trial).")
 @click.option("--rounds", type=click.IntRange(min=1), default=None, help="Assignment re-estimation rounds.")
-def build_table(data_path, output_path, env_path, reference_path, only, limit, rounds):
+def build_table(data_path, output_path, env_path, reference_path, plausibility_path, only, limit, rounds):
     """Rebuild the shipped tables from training spectra (deterministic; ~10-15 min).
 
-    Writes the shift table, the environment table and the reference index
-    (the spectra searched for the most similar reference compounds), each
-    with a provenance header (source file, SHA-256, date, counts, the
-    nmrshiftdb2 attribution and terms).
+    Writes the shift table, the environment table, the reference index
+    (the spectra searched for the most similar reference compounds) and the
+    plausibility table (ring systems and second-sphere environments of the
+    training constitutions), each with a provenance header (source file,
+    SHA-256, date, counts, the nmrshiftdb2 attribution and terms).
 
     Examples:
 
       elucidate build-table --data ../shared/data/train_spectra.jsonl.gz
 
       elucidate build-table --data ../shared/data/train_spectra.jsonl.gz --only reference
+
+      elucidate build-table --data ../shared/data/train_spectra.jsonl.gz --only plausibility
     """
     from .tables import build_all_tables
 
-    headers = build_all_tables(data_path, output_path, env_path, reference_index=reference_path, only=only,
-                               limit=limit, rounds=rounds, progress=lambda msg: click.echo(msg, err=True))
+    headers = build_all_tables(data_path, output_path, env_path, reference_index=reference_path,
+                               plausibility_table=plausibility_path, only=only, limit=limit, rounds=rounds,
+                               progress=lambda msg: click.echo(msg, err=True))
     summary = {}
     if "shift_table" in headers:
         st = headers["shift_table"]
@@ -604,6 +611,8 @@ def build_table(data_path, output_path, env_path, reference_path, only, limit, r
                         "environments": headers["environment_table"].get("environments")})
     if "reference_index" in headers:
         summary["reference_index"] = headers["reference_index"].get("counts")
+    if "plausibility_table" in headers:
+        summary["plausibility_table"] = headers["plausibility_table"].get("motifs")
     click.echo(json.dumps(summary, indent=1))
 
 

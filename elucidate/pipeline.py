@@ -28,7 +28,7 @@ from .formula import Formula, parse_formula
 from .generate import WIDE_VALENCES, AtomType
 from .rank.assignment import LineEntry
 from .rank.calibration import Calibration, calibrated_scores, listed_chance, listed_probabilities, load_calibration
-from .rank.scoring import ScoredStructure, rank_structure
+from .rank.scoring import ScoredStructure, StructurePrior, rank_structure
 from .search import SearchProblem, rank_key, run_search
 from .search.statement import assumptions, completeness_sentence, empty_result_warning, how_sentence
 from .spectrum.peaks import PeakList, check_against_formula, read_peaks
@@ -76,6 +76,7 @@ class SolveSettings:
     keep: int = 100
     pool: int | None = None  # structures fully scored in a steered search (None: from the time limit)
     prior_weight: float = 1.0  # weight of the environment-rarity prior in the score
+    plausibility_weight: float = 1.0  # weight of the plausibility cost in the raw score (0: off)
     workers: int = 2  # processes for the steered search (results do not depend on it)
     search: str = "auto"  # auto | bounded | sampling (see elucidate.search)
     chains: int | None = None  # annealing chains at most (work budget; reproducible when it, not time, ends the run)
@@ -93,6 +94,9 @@ class SolveSettings:
             raise InputError(f"--chains must be at least 1, got {self.chains}")
         if self.neighbours < 0:
             raise InputError(f"--neighbours must be 0 or more, got {self.neighbours}")
+        if not (isinstance(self.plausibility_weight, (int, float)) and 0 <= self.plausibility_weight < math.inf):
+            raise InputError(f"plausibility_weight must be a number >= 0 (0 switches the plausibility cost "
+                             f"off), got {self.plausibility_weight!r}")
 
 
 @dataclass(frozen=True)
@@ -116,6 +120,7 @@ class Candidate:
     prior: float = 0.0  # environment-rarity prior part of the raw score
     fit_cost: float = 0.0  # assignment part (shift likelihood, overlap/split) of the raw score
     found_by: str = ""  # the search strategy that found it
+    plausibility: float = 0.0  # plausibility part (ring systems, small rings, second spheres) of the raw score
 
 
 @dataclass(frozen=True)
@@ -244,10 +249,7 @@ def solve(
     cons = _constraints(formula, peaks, settings)
     library = _library(settings)
     rule = cons.rule
-    prior = None
-    if rule is not None and settings.prior_weight > 0:
-        def prior(mol, _t=rule.table, _w=settings.prior_weight):
-            return _w * _t.mol_rarity(mol)
+    prior = _structure_prior(rule, settings)
     problem = SearchProblem(
         formula=formula, peaks=peaks.peaks, valences=dict(settings.valences),
         charged_nitrogen=settings.charged_nitrogen, constraints=cons, prior=prior,
@@ -296,6 +298,26 @@ def solve(
     )
 
 
+def _structure_prior(rule, settings: SolveSettings) -> StructurePrior | None:
+    """The prior costs of a structure: environment rarity (needs the
+    environment table) and plausibility (needs the plausibility table), each
+    weighted as the settings say; None when neither applies."""
+    rarity = plausibility = None
+    if rule is not None and settings.prior_weight > 0:
+        def rarity(mol, _t=rule.table, _w=settings.prior_weight):
+            return _w * _t.mol_rarity(mol)
+    if settings.plausibility_weight > 0:
+        from .constraints.plausibility import load_plausibility_table
+
+        table = load_plausibility_table()
+        if table is not None:
+            def plausibility(mol, _t=table, _w=settings.plausibility_weight):
+                return _w * _t.cost(mol)
+    if rarity is None and plausibility is None:
+        return None
+    return StructurePrior(rarity, plausibility)
+
+
 def _assumptions(cons: ConstraintSet, settings: SolveSettings, peaks: PeakList) -> list[str]:
     return assumptions(
         overlap=settings.symmetry.overlap, split=settings.symmetry.split, allow_all=settings.allow_all,
@@ -340,7 +362,8 @@ def _finalise(ranked: Sequence[ScoredStructure], top: int, calibration: Calibrat
     given that the answer is listed (rank/calibration.py)."""
     if not ranked:
         return []
-    scores = calibrated_scores([s.score - s.prior for s in ranked], [s.prior for s in ranked], calibration)
+    scores = calibrated_scores([s.fit_cost for s in ranked], [s.prior for s in ranked], calibration,
+                               [s.plausibility for s in ranked])
     probs = listed_probabilities(scores)
     order = sorted(range(len(ranked)), key=lambda i: (float(scores[i]), ranked[i].smiles))
     out = []
@@ -366,8 +389,9 @@ def _finalise(ranked: Sequence[ScoredStructure], top: int, calibration: Calibrat
                 splits=s.assignment.splits,
                 unfilled=s.assignment.unfilled,
                 prior=round(s.prior, 4),
-                fit_cost=round(s.score - s.prior, 4),
+                fit_cost=round(s.fit_cost, 4),
                 found_by=(sources or {}).get(s.smiles, ""),
+                plausibility=round(s.plausibility, 4),
             )
         )
     return out

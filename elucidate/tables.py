@@ -11,7 +11,11 @@ rebuilds, in order:
 3. the reference index of the training spectra
    (:func:`elucidate.reference.build.build_reference_index`), used to show
    the reference compounds with the most similar spectra (seconds; rebuild it
-   alone with ``--only reference``).
+   alone with ``--only reference``);
+4. the plausibility table of the training constitutions
+   (:func:`elucidate.constraints.plausibility.build_plausibility_table`):
+   counts of ring systems, rings, ring pairs, cumulated centres and
+   second-sphere environments (about 20 s; alone with ``--only plausibility``).
 
 All carry a provenance header: the source (open nmrshiftdb2 data,
 Steinbeck, Krause, Kuhn, J. Chem. Inf. Comput. Sci. 2003, 43, 1733), its
@@ -23,15 +27,23 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Callable
 
+import datetime as _dt
+import gzip
+import hashlib
+import json
+
 from .constraints.environments import DEFAULT_TABLE_PATH, build_environment_table
+from .constraints.plausibility import TABLE_NAME as PLAUSIBILITY_TABLE_NAME
+from .constraints.plausibility import build_plausibility_table
+from .datafiles import PACKAGE_DATA_DIR
 from .errors import InputError
-from .predict.build import BuildSettings, build_table, iter_assigned_training
+from .predict.build import ATTRIBUTION, BuildSettings, build_table, iter_assigned_training
 from .reference.build import build_reference_index
 
-__all__ = ["build_all_tables", "BUILD_PARTS"]
+__all__ = ["build_all_tables", "build_plausibility", "BUILD_PARTS"]
 
 #: What ``--only`` may select.
-BUILD_PARTS = ("tables", "reference")
+BUILD_PARTS = ("tables", "reference", "plausibility")
 
 
 def build_all_tables(
@@ -40,23 +52,25 @@ def build_all_tables(
     environment_table: str | Path | None = None,
     *,
     reference_index: str | Path | None = None,
+    plausibility_table: str | Path | None = None,
     only: str | None = None,
     limit: int | None = None,
     rounds: int | None = None,
     build_date: str | None = None,
     progress: Callable[[str], None] | None = None,
 ) -> dict:
-    """Build the shift and environment tables and the reference index; return their headers.
+    """Build the shift and environment tables, the reference index and the
+    plausibility table; return their headers.
 
     Parameters
     ----------
     data_path : path-like
         Training spectra (JSON lines, optionally gzip'd).
-    shift_table, environment_table, reference_index : path-like, optional
+    shift_table, environment_table, reference_index, plausibility_table : path-like, optional
         Output files (default: the package's shipped files).
-    only : {"tables", "reference"}, optional
-        Build only the shift and environment tables, or only the reference
-        index (default: everything).
+    only : {"tables", "reference", "plausibility"}, optional
+        Build only the shift and environment tables, only the reference
+        index, or only the plausibility table (default: everything).
     limit, rounds : int, optional
         First ``limit`` spectra only; assignment re-estimation rounds.
     build_date : str, optional
@@ -67,8 +81,8 @@ def build_all_tables(
     Returns
     -------
     dict
-        ``shift_table``, ``environment_table`` and ``reference_index``
-        headers, for the parts built.
+        ``shift_table``, ``environment_table``, ``reference_index`` and
+        ``plausibility_table`` headers, for the parts built.
     """
     if only is not None and only not in BUILD_PARTS:
         raise InputError(f"only={only!r}: choose one of {', '.join(BUILD_PARTS)} (or nothing for all)")
@@ -103,4 +117,84 @@ def build_all_tables(
             progress("reference index: reading the training spectra")
         out["reference_index"] = build_reference_index(data_path, reference_index, limit=limit,
                                                        build_date=build_date, progress=progress)
+    if only in (None, "plausibility"):
+        out["plausibility_table"] = build_plausibility(data_path, plausibility_table, limit=limit,
+                                                       build_date=build_date, progress=progress)
     return out
+
+
+def _training_smiles(path: Path, limit: int | None):
+    """The ``smiles`` of every record of a JSON-lines file (first ``limit`` records)."""
+    opener = gzip.open if path.name.endswith(".gz") else open
+    n = 0
+    with opener(path, "rt", encoding="utf-8") as fh:
+        for line_no, line in enumerate(fh, 1):
+            if not line.strip() or line.lstrip().startswith("#"):
+                continue
+            try:
+                smiles = json.loads(line)["smiles"]
+            except (ValueError, KeyError, TypeError) as exc:
+                raise InputError(f"{path}:{line_no}: expected a JSON object with a 'smiles' field "
+                                 f"({exc})") from None
+            yield smiles
+            n += 1
+            if limit is not None and n >= limit:
+                return
+
+
+def _sha256(path: Path) -> str:
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for chunk in iter(lambda: fh.read(1 << 20), b""):
+            h.update(chunk)
+    return h.hexdigest()
+
+
+def build_plausibility(data_path: str | Path, output: str | Path | None = None, *, limit: int | None = None,
+                       build_date: str | None = None, progress: Callable[[str], None] | None = None) -> dict:
+    """Build the plausibility table from the training constitutions and write it.
+
+    Parameters
+    ----------
+    data_path : path-like
+        Training spectra (JSON lines, optionally gzip'd); only ``smiles`` is read.
+    output : path-like, optional
+        Where to write (default: the package's ``elucidate/data/plausibility.json.gz``).
+    limit : int, optional
+        First ``limit`` records only.
+    build_date : str, optional
+        ISO date for the header (default: today, UTC).
+    progress : callable, optional
+        Called with one-line progress messages.
+
+    Returns
+    -------
+    dict
+        The table's provenance header.
+    """
+    path = Path(data_path)
+    if not path.is_file():
+        raise InputError(f"training data {path} not found; pass the path of train_spectra.jsonl.gz "
+                         "(e.g. ../shared/data/train_spectra.jsonl.gz)")
+    if limit is not None and (isinstance(limit, bool) or not isinstance(limit, int) or limit < 1):
+        raise InputError(f"limit={limit!r} is invalid; give a positive integer or None")
+    if progress:
+        progress("plausibility table: counting ring systems, rings, ring pairs and second spheres")
+    table = build_plausibility_table(
+        _training_smiles(path, limit),
+        provenance={
+            "source": f"nmrshiftdb2 (open NMR database), training spectra file {path.name}",
+            "attribution": ATTRIBUTION,
+            "licence_terms": "nmrshiftdb2 data are open content; keep the attribution "
+                             "with any redistribution of this derived table.",
+            "build_date": build_date or _dt.datetime.now(_dt.timezone.utc).date().isoformat(),
+            "data_sha256": _sha256(path),
+            "settings": {"limit": limit, "constitution": "RDKit canonical SMILES without stereo"},
+        },
+    )
+    out = Path(output) if output else PACKAGE_DATA_DIR / PLAUSIBILITY_TABLE_NAME
+    out.parent.mkdir(parents=True, exist_ok=True)
+    table.save(out)
+    if progress:
+        progress(f"plausibility table: {table.provenance['constitutions']} constitutions -> {out}")
+    return table.provenance

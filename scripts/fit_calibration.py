@@ -27,6 +27,7 @@ import numpy as np
 from elucidate.bench import format_bench_table, recalibrate_row
 from elucidate.rank.calibration import (
     DEFAULT_CALIBRATION_PATH,
+    PROVISIONAL_PLAUSIBILITY_WEIGHT,
     Calibration,
     fit_listed_model,
     fit_logistic,
@@ -67,10 +68,20 @@ def _stop_data(data):
 
 
 def _fit(data, time_limit):
-    """Calibration fitted on bench rows that carry fit_terms."""
-    found = [(np.array([t[0] for t in r["fit_terms"]]), np.array([t[1] for t in r["fit_terms"]]), r["rank"] - 1)
+    """Calibration fitted on bench rows that carry fit_terms.
+
+    Rows of this version carry three terms per candidate (assignment cost,
+    rarity prior, plausibility) and all three weights are fitted; rows
+    written before the plausibility term carry two, and then the
+    plausibility weight keeps its provisional value (said in the provenance).
+    """
+    n_terms = min(len(t) for r in data for t in r["fit_terms"])
+    k = 3 if n_terms >= 3 else 2
+    found = [tuple(np.array([t[i] for t in r["fit_terms"]]) for i in range(k)) + (r["rank"] - 1,)
              for r in data if r.get("rank") is not None]
-    a, b = fit_score_weights(found)
+    weights = fit_score_weights(found)
+    a, b = weights[:2]
+    c = weights[2] if k == 3 else PROVISIONAL_PLAUSIBILITY_WEIGHT
     complete = [r for r in data if r.get("status") == "complete"]
     n_found_complete = sum(r.get("rank") is not None for r in complete)
     listed_complete = (n_found_complete + 1) / (len(complete) + 2)
@@ -89,7 +100,7 @@ def _fit(data, time_limit):
     stop_logit = fit_logistic(stop_x, stop_y) if len(stop_x) >= 20 and 0 < sum(stop_y) < len(stop_y) else None
     bands = Counter(f"{r['heavy_atoms']}" for r in data)
     cal = Calibration(
-        fit_weight=round(a, 4), prior_weight=round(b, 4),
+        fit_weight=round(a, 4), prior_weight=round(b, 4), plausibility_weight=round(c, 4),
         listed_when_complete=round(listed_complete, 4),
         listed_logit=tuple(round(x, 4) for x in logit) if logit else None,
         sampled_logit=tuple(round(x, 4) for x in sampled_logit) if sampled_logit else None,
@@ -97,6 +108,7 @@ def _fit(data, time_limit):
         provenance={
             "fitted": datetime.date.today().isoformat(),
             "method": "conditional logit weights + logistic listed-answer model (rank/calibration.py)",
+            "plausibility_weight": "fitted" if k == 3 else "provisional (rows carry no plausibility term)",
             "data": "elucidation runs (mult mode) over training constitutions held out from a rebuilt "
                     "shift table (one in 20 by hash of the canonical SMILES); open nmrshiftdb2 data "
                     "(Steinbeck, Krause, Kuhn, J. Chem. Inf. Comput. Sci. 2003, 43, 1733)",

@@ -46,6 +46,37 @@ def test_score_weights_recovered_from_simulated_lists():
     assert b == pytest.approx(1.3, rel=0.15)
 
 
+def test_three_score_weights_recovered_from_simulated_lists():
+    # the plausibility term as a third feature: fit_score_weights generalises to k parts
+    rng = np.random.default_rng(11)
+    cases = []
+    for _ in range(2000):
+        m = int(rng.integers(3, 30))
+        f = rng.gamma(2.0, 3.0, size=m)
+        r = rng.gamma(1.5, 2.0, size=m)
+        q = rng.gamma(1.0, 3.0, size=m) * (rng.random(m) < 0.6)
+        u = -(0.5 * f + 0.8 * r + 0.3 * q)
+        p = np.exp(u - u.max())
+        p /= p.sum()
+        cases.append((f, r, q, int(rng.choice(m, p=p))))
+    a, b, c = fit_score_weights(cases)
+    assert a == pytest.approx(0.5, rel=0.12)
+    assert b == pytest.approx(0.8, rel=0.15)
+    assert c == pytest.approx(0.3, rel=0.2)
+    with pytest.raises(ValueError, match="mix"):
+        fit_score_weights(cases[:5] + _simulate_lists(0.4, 1.0, 5, rng))
+
+
+def test_two_term_bench_rows_stay_readable():
+    # rows written before the plausibility term: it counts as 0
+    old = {"rank": 2, "heavy_atoms": 8, "status": "complete", "cost_bound": None, "top_cost": None,
+           "fit_terms": [[5.0, 1.0], [3.0, 4.0], [9.0, 0.0]]}
+    new = dict(old, fit_terms=[t + [0.0] for t in old["fit_terms"]])
+    cal = Calibration(fit_weight=1.0, prior_weight=0.1, plausibility_weight=2.0)
+    assert recalibrate_row(old, cal) == {**recalibrate_row(new, cal), "fit_terms": old["fit_terms"]}
+    assert recalibrate_row(old, cal)["rank"] == 1  # 3.4 < 5.1 < 9.0
+
+
 def test_score_weights_need_data():
     with pytest.raises(ValueError, match="held-out"):
         fit_score_weights([(np.array([1.0]), np.array([0.0]), 0)])
@@ -141,8 +172,11 @@ def test_bench_recalibration_matches_a_native_solve(monkeypatch):
     monkeypatch.setattr(pipeline, "load_calibration", lambda: other)
     native = solve("C5H10O", peaks, settings)
     assert plain.complete and native.complete
-    terms = [[c.fit_cost, c.prior] for c in plain.candidates]
-    assert all(c.score == pytest.approx(c.fit_cost + c.prior, abs=2e-4) for c in plain.candidates)
+    terms = [[c.fit_cost, c.prior, c.plausibility] for c in plain.candidates]
+    w = Calibration().plausibility_weight
+    assert all(c.score == pytest.approx(c.fit_cost + c.prior + w * c.plausibility, abs=2e-4)
+               for c in plain.candidates)
+    assert any(c.plausibility > 0 for c in plain.candidates)
     native_rank = {c.smiles: i + 1 for i, c in enumerate(native.candidates)}
     # the weights matter here: the two orders differ within the first 15
     assert [c.smiles for c in plain.candidates[:15]] != [c.smiles for c in native.candidates[:15]]

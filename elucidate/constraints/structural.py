@@ -36,12 +36,53 @@ __all__ = [
 
 @dataclass(frozen=True)
 class Motif:
-    """A named substructure considered implausible, with the reason."""
+    """A named substructure considered implausible, with the reason.
+
+    ``gate`` is an optional plain SMARTS that every molecule with the motif
+    matches; it is tried first, so a motif written as a long recursive SMARTS
+    costs little on the many molecules that cannot have it.
+    """
 
     name: str
     smarts: str
     reason: str
     default: bool  # dropped by ``solve`` unless --allow-all
+    gate: str | None = None
+
+    def matcher(self):
+        """``mol -> bool``: whether a molecule contains the motif."""
+        q = Chem.MolFromSmarts(self.smarts)
+        if self.gate is None:
+            return lambda m: m.HasSubstructMatch(q)
+        g = Chem.MolFromSmarts(self.gate)
+        return lambda m: m.HasSubstructMatch(g) and m.HasSubstructMatch(q)
+
+
+def _bridged_aromatic_smarts(max_ring: int = 8) -> str:
+    """An aromatic five- or six-membered ring whose atoms 1,3 (or 1,4) are
+    joined outside the ring by a bridge closing a ring of at most
+    ``max_ring`` atoms (a meta- or para-cyclophane with a short bridge)."""
+    alts = []
+    for size, gaps in ((5, (2,)), (6, (2, 3))):
+        for gap in gaps:  # ring bonds between the two bridgeheads on the short side
+            for k in range(1, max_ring - gap):  # bridge atoms; the bridged ring has k + gap + 1 atoms
+                ring = "a12" + ":a" * (gap - 1) + ":a(" + ":a" * (size - gap - 1) + ":1)"
+                alts.append(ring + "!:*" * k + "!:2")
+    return "[$(" + "),$(".join(alts) + ")]"
+
+
+def _bridgehead_alkene_smarts(max_atoms: int = 8) -> str:
+    """A double bond at a bridgehead carbon or nitrogen of a bridged bicycle
+    of at most ``max_atoms`` atoms (bridges a, b, c >= 1 atoms; Fawcett's
+    S = a + b + c <= max_atoms - 2)."""
+    alts = []
+    for a in range(1, max_atoms):
+        for b in range(1, max_atoms):
+            for c in range(b, max_atoms):
+                if a + b + c + 2 > max_atoms:
+                    continue
+                alts.append("[#6,#7]12=" + "~".join(["*"] * a) + "~*(" + "~*" * b + "~1)" + "~*" * c + "~2")
+    return "[$(" + "),$(".join(alts) + ")]"
 
 
 IMPLAUSIBLE_MOTIFS: tuple[Motif, ...] = (
@@ -72,6 +113,27 @@ IMPLAUSIBLE_MOTIFS: tuple[Motif, ...] = (
         "cumulene in small ring",
         "*=;@[r3,r4,r5,r6,r7]=;@*",
         "cumulated double bonds cannot sit in a ring of fewer than eight atoms",
+        True,
+    ),
+    Motif(
+        "bridged aromatic ring",
+        _bridged_aromatic_smarts(8),
+        "an aromatic ring bridged 1,3 or 1,4 by a short chain (closing a ring of at most eight "
+        "atoms) is too strained to stay planar",
+        True,
+        gate="[a;x3,x4]",
+    ),
+    Motif(
+        "bridgehead double bond in small bicycle",
+        _bridgehead_alkene_smarts(8),
+        "a double bond at a bridgehead of a bicycle of at most eight ring atoms violates Bredt's rule",
+        True,
+        gate="[#6,#7;x3,x4]=*",
+    ),
+    Motif(
+        "cyclobutadiene",
+        "*1=*-*=*-1",
+        "two double bonds in a four-membered ring (antiaromatic, dimerises)",
         True,
     ),
 )
@@ -154,6 +216,6 @@ def implausible_motif_filters(only_default: bool = True) -> list[StructureFilter
     for motif in IMPLAUSIBLE_MOTIFS:
         if only_default and not motif.default:
             continue
-        q = Chem.MolFromSmarts(motif.smarts)
-        out.append(StructureFilter(f"no {motif.name}", lambda m, q=q: not m.HasSubstructMatch(q)))
+        has = motif.matcher()
+        out.append(StructureFilter(f"no {motif.name}", lambda m, has=has: not has(m)))
     return out

@@ -2,11 +2,13 @@
 
 A structure's *raw score* is the cost of its optimal line assignment
 (Student-t shift likelihood with overlap, split and unfilled-line penalties,
-:mod:`elucidate.rank.assignment`) plus an optional prior cost (the
-environment rarity of :mod:`elucidate.constraints.environments`).  Every
-search strategy scores structures with :func:`score_structure`, so their
-results can be merged and ranked together; the calibrated weights of the two
-parts are applied later (:mod:`elucidate.rank.calibration`).
+:mod:`elucidate.rank.assignment`) plus optional prior costs: the environment
+rarity of :mod:`elucidate.constraints.environments` (``prior``) and the
+plausibility of its ring systems, small-ring bond patterns and second-sphere
+environments (:mod:`elucidate.constraints.plausibility`, ``plausibility``).
+Every search strategy scores structures with :func:`score_structure`, so
+their results can be merged and ranked together; the calibrated weights of
+the parts are applied later (:mod:`elucidate.rank.calibration`).
 """
 
 from __future__ import annotations
@@ -22,7 +24,7 @@ from ..predict import predict_mol
 from .assignment import SPLIT_COST, Assignment, CarbonClass, assign_lines
 from .rotamers import rotamer_split_costs
 
-__all__ = ["ScoredStructure", "rank_structure", "score_structure", "smiles_order"]
+__all__ = ["ScoredStructure", "StructurePrior", "rank_structure", "score_structure", "smiles_order"]
 
 
 @dataclass(frozen=True)
@@ -31,7 +33,8 @@ class ScoredStructure:
 
     ``order`` maps the scored molecule's atom indices to the positions of
     the atoms in ``smiles``; ``predicted`` holds ``(atom, H, shift, sigma)``
-    in the scored molecule's atom indices.
+    in the scored molecule's atom indices.  ``score`` is the assignment cost
+    plus ``prior`` (environment rarity) plus ``plausibility``.
     """
 
     score: float
@@ -40,11 +43,36 @@ class ScoredStructure:
     prior: float
     predicted: tuple
     order: tuple[int, ...]
+    plausibility: float = 0.0
 
     @property
     def fit_cost(self) -> float:
         """The assignment part of the raw score."""
-        return self.score - self.prior
+        return self.score - self.prior - self.plausibility
+
+
+@dataclass(frozen=True)
+class StructurePrior:
+    """The two prior costs of a structure, kept apart.
+
+    ``rarity`` and ``plausibility`` map a molecule to a (weighted) cost, or
+    are None.  Called, the object returns their sum, so code that treats a
+    prior as one callable keeps working; :func:`score_structure` stores the
+    two parts separately.
+    """
+
+    rarity: Callable[[Chem.Mol], float] | None = None
+    plausibility: Callable[[Chem.Mol], float] | None = None
+
+    def terms(self, mol: Chem.Mol) -> tuple[float, float]:
+        """``(rarity, plausibility)`` of a molecule (0 for a part that is None)."""
+        r = self.rarity(mol) if self.rarity is not None else 0.0
+        q = self.plausibility(mol) if self.plausibility is not None else 0.0
+        return r, q
+
+    def __call__(self, mol: Chem.Mol) -> float:
+        r, q = self.terms(mol)
+        return r + q
 
 
 def rank_structure(mol: Chem.Mol, peaks: Sequence) -> tuple[Assignment, tuple]:
@@ -94,14 +122,19 @@ def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
         Canonical SMILES of ``mol`` (its identity).
     mol : rdkit.Chem.Mol
     peaks : sequence of Peak
-    prior : callable(mol) -> float, optional
-        Prior cost added to the assignment cost.
+    prior : StructurePrior or callable(mol) -> float, optional
+        Prior cost added to the assignment cost; a :class:`StructurePrior`
+        has its rarity and plausibility parts stored apart, any other
+        callable counts as rarity.
     smiles_written : bool
         See :func:`smiles_order`.
     """
     assignment, predicted = rank_structure(mol, peaks)
     if math.isinf(assignment.cost):
         return None
-    p = prior(mol) if prior is not None else 0.0
-    return ScoredStructure(assignment.cost + p, smiles, assignment, p, predicted,
-                           smiles_order(mol, smiles_written))
+    if isinstance(prior, StructurePrior):
+        p, q = prior.terms(mol)
+    else:
+        p, q = (prior(mol) if prior is not None else 0.0), 0.0
+    return ScoredStructure(assignment.cost + p + q, smiles, assignment, p, predicted,
+                           smiles_order(mol, smiles_written), q)

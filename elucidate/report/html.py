@@ -705,6 +705,8 @@ def _candidate(c: dict, peaks: list[dict]) -> str:
              ("MAE", _f(c.get("mae_ppm")) + " ppm"), ("max deviation", _f(c.get("max_error_ppm")) + " ppm")]
     if c.get("prior_cost") is not None:
         facts.insert(2, ("rarity cost", _f(c.get("prior_cost"), 2)))
+    if c.get("plausibility_cost") is not None:
+        facts.insert(3, ("plausibility cost", _f(c.get("plausibility_cost"), 2)))
     out.append("<p>" + " &middot; ".join(f"{k} <strong>{v}</strong>" for k, v in facts) + "</p>")
     notes = _notes(c)
     if notes:

@@ -20,7 +20,7 @@ import math
 
 from ..errors import InputError
 from ..pipeline import CAUTION, SolveResult
-from ..rank.ambiguity import ambiguity_notes
+from ..rank.ambiguity import ambiguity_notes, multiplicity_notes
 from ..spectrum.trace import SpectrumTrace
 from ..search.statement import fit_equivalent
 from .runinfo import RunInfo
@@ -112,6 +112,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
                 "smiles": c.smiles,
                 "score": _num(c.score, 4),
                 "prior_cost": _num(c.prior, 4),
+                "plausibility_cost": _num(c.plausibility, 4),
                 "probability": _num(c.probability, 4),
                 "mae_ppm": _num(c.mae_ppm),
                 "max_error_ppm": _num(c.max_error_ppm),
@@ -137,6 +138,8 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
             for i, c in enumerate(result.candidates)
         ],
         "ambiguity": ambiguity_notes(result.candidates),
+        # without multiplicities: the lines whose multiplicity differs among the top 5 (null with them)
+        "multiplicities": multiplicity_notes(result.peaks.peaks, result.candidates),
         "reference_neighbours": [dict(n) for n in result.reference_neighbours],
         "caution": CAUTION,
         "peaks_provenance": list(result.peaks.provenance),

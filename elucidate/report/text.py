@@ -83,6 +83,10 @@ def render_text(data: dict) -> str:
                     f"  line {row['peak_index'] + 1} at {row['observed']:.1f} ppm: predicted "
                     f"{row['predicted_best']:.1f} (rank 1) vs {row['predicted_other']:.1f} (rank {note['rank']})"
                 )
+        mult = data.get("multiplicities")
+        if mult and mult.get("statement"):
+            out.append("")
+            out.append(mult["statement"])
     else:
         out.append("no candidate structures")
     out.append("")

@@ -14,7 +14,7 @@ Simulated annealing (Kirkpatrick, Gelatt & Vecchi, Science 1983, 220, 671;
 from memory) with the Metropolis rule: a move from energy ``E`` to ``E'`` is
 taken when ``E' <= E``, otherwise with probability ``exp(-(E' - E) / T)``;
 the temperature falls geometrically from ``t_start`` to ``t_end`` over the
-chain.  The energy is the calibrated score ``a * fit + b * prior`` plus
+chain.  The energy is the calibrated score ``a * fit + b * prior + c * plausibility`` plus
 ``VIOLATION_COST`` for every constraint the structure breaks (a structure
 filter, or a carbon whose first-sphere environment the shift rule excludes):
 the walk may cross structures outside the constrained space but only those
@@ -39,6 +39,7 @@ from dataclasses import dataclass, field
 from rdkit import Chem
 
 from ..rank.cover import CoverRow, min_offset_cover
+from ..rank.calibration import load_calibration
 from ..rank.scoring import ScoredStructure, score_structure
 from .moves import Skeleton, random_move
 
@@ -164,22 +165,27 @@ class Evaluator:
     """Energies of skeletons, remembered by canonical SMILES.
 
     One per process; the memory only saves time (results do not depend on
-    it).  ``fit_weight``/``prior_weight`` are the calibrated score weights.
+    it).  ``fit_weight``/``prior_weight``/``plausibility_weight`` are the
+    calibrated score weights (the last from the shipped calibration when
+    not given).
     """
 
     def __init__(self, peaks, constraints, prior, fit_weight: float, prior_weight: float,
-                 memory: int = 200_000):
+                 memory: int = 200_000, plausibility_weight: float | None = None):
         self.peaks = peaks
         self.cons = constraints
         self.prior = prior
         self.fit_weight = fit_weight
         self.prior_weight = prior_weight
+        self.plausibility_weight = (load_calibration().plausibility_weight if plausibility_weight is None
+                                    else plausibility_weight)
         self.memory = memory
         self._memo: dict[str, _Eval] = {}
         self.evaluations = 0
 
     def energy_of(self, scored: ScoredStructure) -> float:
-        return self.fit_weight * scored.fit_cost + self.prior_weight * scored.prior
+        return (self.fit_weight * scored.fit_cost + self.prior_weight * scored.prior
+                + self.plausibility_weight * scored.plausibility)
 
     def evaluate(self, sk: Skeleton) -> tuple[_Eval, tuple[int, ...]] | None:
         """(evaluation, canonical position -> skeleton atom) or None when

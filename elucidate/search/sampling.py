@@ -219,9 +219,10 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
     t0 = time.monotonic()
     workers = executor.n if executor is not None else 1
     fit_w, prior_w = state.weights
+    plaus_w = load_calibration().plausibility_weight
 
     def energy(s: ScoredStructure) -> float:
-        return fit_w * s.fit_cost + prior_w * s.prior
+        return fit_w * s.fit_cost + prior_w * s.prior + plaus_w * s.plausibility
 
     # 1. seeds: the cheapest structures of the cost-bounded search, scored
     pool = sorted(((cost, smi, mol) for smi, (cost, mol) in found.items()), key=lambda e: (e[0], e[1]))

@@ -44,7 +44,8 @@ import numpy as np
 
 from ..errors import InputError
 from .dept import classify_multiplicities, dept_sign_warnings
-from .peaks import Peak, PeakList, _merge
+from .peaklist import Peak, PeakList
+from .peaklist import merge_lines as _merge
 from .picking import PickedPeaks, PickSettings, pick_peaks
 
 __all__ = [

@@ -36,7 +36,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from .peaks import SHIFT_RANGE
+from .peaklist import SHIFT_RANGE
 
 __all__ = ["PickSettings", "PickedPeaks", "pick_peaks"]
 

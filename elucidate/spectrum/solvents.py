@@ -45,7 +45,7 @@ import re
 from dataclasses import replace
 
 from ..errors import InputError
-from .peaks import PeakList
+from .peaklist import PeakList
 
 __all__ = [
     "SOLVENT_LINES",

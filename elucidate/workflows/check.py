@@ -243,12 +243,12 @@ def _plausibility_like(expected: Chem.Mol) -> Callable[[Chem.Mol], bool]:
     """
     from ..constraints.structural import IMPLAUSIBLE_MOTIFS
 
-    queries = []
+    matchers = []
     for motif in IMPLAUSIBLE_MOTIFS:
-        q = Chem.MolFromSmarts(motif.smarts)
-        if not expected.HasSubstructMatch(q):
-            queries.append(q)
-    return lambda m: not any(m.HasSubstructMatch(q) for q in queries)
+        has = motif.matcher()
+        if not has(expected):
+            matchers.append(has)
+    return lambda m: not any(has(m) for has in matchers)
 
 
 def _search_alternatives(formula, peaks, expected: Chem.Mol, expected_cost: float, scaffold: str | None,
