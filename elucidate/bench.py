@@ -156,17 +156,16 @@ def _answer_energy(answer_mol, formula, peaks, settings) -> list | None:
     or the ranking's."""
     if answer_mol is None:
         return None
-    from .pipeline import _constraints
+    from .pipeline import _constraints, _structure_prior
     from .rank.scoring import score_structure
 
     prepared = prepare_peaks(formula, peaks, settings.solvent)
     rule = _constraints(formula, prepared, settings).rule
-    prior = (lambda m: settings.prior_weight * rule.table.mol_rarity(m)) if rule is not None else None
     smiles = Chem.MolToSmiles(answer_mol, isomericSmiles=False)
-    scored = score_structure(smiles, answer_mol, prepared.peaks, prior)
+    scored = score_structure(smiles, answer_mol, prepared.peaks, _structure_prior(rule, settings))
     if scored is None:
         return None
-    return [round(scored.fit_cost, 4), round(scored.prior, 4)]
+    return [round(scored.fit_cost, 4), round(scored.prior, 4), round(scored.plausibility, 4)]
 
 
 def _top_cost(result, formula, peaks, settings) -> float | None:

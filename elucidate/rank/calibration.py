@@ -58,6 +58,7 @@ __all__ = [
     "listed_probabilities",
     "listed_chance",
     "better_chance",
+    "confident_margin",
     "fit_score_weights",
     "fit_listed_model",
     "fit_logistic",
@@ -209,6 +210,21 @@ def sampling_features(heavy_atoms: int, since_gain: int, total_hits: int) -> tup
 def stop_features(since_gain: int, total_hits: int, heavy_atoms: int, rounds: int) -> tuple[float, ...]:
     """Features of the early-stop model (see :func:`better_chance`)."""
     return float(min(since_gain, 10)), float(min(total_hits, 10)), heavy_atoms / 10.0, min(rounds, 40) / 10.0
+
+
+def confident_margin(heavy_atoms: int, calibration: Calibration, below: float = 0.01) -> float | None:
+    """The bound margin (proven cost bound minus the best candidate's
+    approximate cost) at which the bounded listed-answer model, uncapped,
+    puts the chance of an answer beyond the bound below ``below``; None
+    without a model.  The cost-bounded search stops there: deepening further
+    would almost surely not change the best candidates."""
+    if calibration.listed_logit is None:
+        return None
+    c0, c1, c2 = calibration.listed_logit
+    if c1 <= 0:
+        return None
+    target = math.log((1.0 - below) / below)
+    return max(0.0, (target - c0 - c2 * heavy_atoms / 10.0) / c1)
 
 
 def better_chance(since_gain: int, total_hits: int, rounds: int, heavy_atoms: int,

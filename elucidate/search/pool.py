@@ -14,15 +14,24 @@ import time
 from ..generate import Structure
 from .base import Proof, SearchProblem
 
-__all__ = ["score_pool"]
+__all__ = ["score_pool", "MIN_SCORED"]
+
+#: Structures always scored before the pool scoring may stop early.
+MIN_SCORED = 200
 
 
-def score_pool(problem: SearchProblem, found: dict, proof: Proof, already: dict | None = None):
+def score_pool(problem: SearchProblem, found: dict, proof: Proof, already: dict | None = None,
+               energy=None, needed: float | None = None):
     """Score the cheapest found structures; returns (scored, proof, number
     scored, whether the time limit cut the scoring).
 
     ``already`` maps SMILES to scores computed earlier (None when the
-    structure could not be scored), which are reused.
+    structure could not be scored), which are reused.  With ``needed`` (and
+    ``energy``, the calibrated score of a scored structure), scoring stops
+    once the structures left cost at least ``needed`` more than the
+    best-scoring one so far: the calibrated chance that one of them is the
+    answer is then below 1 % (:func:`elucidate.rank.calibration.confident_margin`);
+    the bound drops to the first one left, as for a time cut.
     """
     already = already or {}
     pool = sorted(((cost, smi, mol) for smi, (cost, mol) in found.items()), key=lambda e: (e[0], e[1]))
@@ -33,11 +42,15 @@ def score_pool(problem: SearchProblem, found: dict, proof: Proof, already: dict 
     scored = []
     n = 0
     cut = False
-    for k, (_, smi, mol) in enumerate(pool):
+    best = None  # (energy, approximate cost) of the best-scoring structure so far
+    for k, (cost, smi, mol) in enumerate(pool):
         if time.monotonic() > problem.deadline:
             # out of time while scoring: the unscored rest costs at least this
             proof = Proof.after_dropping(proof, pool[k][0])
             cut = True
+            break
+        if needed is not None and best is not None and k >= MIN_SCORED and cost - best[1] >= needed:
+            proof = Proof.after_dropping(proof, cost)
             break
         if smi in already:
             item = already[smi]
@@ -46,5 +59,9 @@ def score_pool(problem: SearchProblem, found: dict, proof: Proof, already: dict 
         n += 1
         if item is not None:
             scored.append(item)
+            if energy is not None:
+                e = energy(item)
+                if best is None or e < best[0]:
+                    best = (e, cost)
         problem.report("scoring candidates", len(scored))
     return scored, proof, n, cut

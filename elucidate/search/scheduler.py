@@ -30,7 +30,7 @@ import time
 
 from ..generate import enumerate_isomers
 from ..generate.atomtypes import type_distributions
-from ..rank.calibration import load_calibration
+from ..rank.calibration import confident_margin, load_calibration
 from ..rank.scoring import ScoredStructure
 from .base import Proof, SearchOutcome, SearchProblem, StrategyReport, rounded_bound
 from .orderly import BOUND_GROWTH, INITIAL_BOUND, PassOutcome, PassState, run_pass
@@ -161,6 +161,9 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     exhausted = False  # the whole constrained space was searched
     reports: list[StrategyReport] = []
     sampled = None
+    needed = confident_margin(problem.formula.heavy_atoms, cal) if problem.mode == "auto" else None
+    scored_cache: dict = {}
+    confident = False
     t0 = time.monotonic()
     try:
         while True:
@@ -182,11 +185,17 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
             proven_bound = bound
             if outcome.n_found >= pool_size:
                 break
+            if needed is not None and time.monotonic() - start > problem.time_limit * CONFIDENT_AFTER_SHARE \
+                    and _margin_after_scoring(problem, found, scored_cache, cal, bound) >= needed:
+                # the calibrated chance that the answer lies beyond this bound
+                # is below 1 %: deepening further is not worth the wait
+                confident = True
+                break
             bound *= BOUND_GROWTH
         reports.append(StrategyReport(
             "orderly deepening", n_found, time.monotonic() - t0,
             f"{len(runs)} pass(es), last at approximate cost {bound:.3g}"))
-        if not exhausted and not (proven_bound is not None and n_found >= pool_size) \
+        if not exhausted and not confident and not (proven_bound is not None and n_found >= pool_size) \
                 and time.monotonic() < gen_deadline:
             # The orderly passes did not finish in their share of the time:
             # list structures plan by plan in increasing cost (CP-SAT),
@@ -233,8 +242,14 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
         # structures let go during the passes cost at least this
         proof = Proof.after_dropping(proof, dropped_min)
     t2 = time.monotonic()
-    already = sampled.scored_pool if sampled is not None else {}
-    scored, proof, n_scored, pool_cut = score_pool(problem, found, proof, already)
+    already = dict(scored_cache)
+    if sampled is not None:
+        already.update(sampled.scored_pool)
+    def energy(item):
+        return cal.fit_weight * item.fit_cost + cal.prior_weight * item.prior + cal.plausibility_weight * item.plausibility
+
+    scored, proof, n_scored, pool_cut = score_pool(problem, found, proof, already, energy,
+                                                   needed if problem.mode == "auto" else None)
     reports.append(StrategyReport("full scoring of the cheapest structures", n_scored, time.monotonic() - t2))
     if sampled is not None:
         scored = _merge_scored(scored, sampled.scored)
@@ -262,6 +277,8 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     if plan_runs is not None:
         generation_finished = plan_runs.exhausted or len(plan_runs.found) >= pool_size
     ended = "finished" if generation_finished and not pool_cut else "time limit"
+    if confident and not pool_cut:
+        ended = "confident"
     if sampled is not None:
         ended = sampled.ended
     sources = {}
@@ -275,6 +292,33 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
             sources[item.smiles] = "orderly generation"
     return SearchOutcome(scored, status, cost_bound, n_found, log, found, reports, ended, sources,
                          sampled.trace if sampled is not None else [])
+
+
+#: The cost-bounded search may stop early (confident) only after this share
+#: of the time limit: before that, finishing the search (a complete list) is
+#: cheap and worth more than the seconds saved.
+CONFIDENT_AFTER_SHARE = 0.05
+#: Structures of lowest approximate cost scored after each finished orderly
+#: pass to decide whether deepening further is worth it.
+CHECK_COUNT = 300
+
+
+def _margin_after_scoring(problem: SearchProblem, found: dict, cache: dict, cal, bound: float) -> float:
+    """Proven bound minus the approximate cost of the best-scoring structure
+    among the ``CHECK_COUNT`` cheapest found (scored once, cached)."""
+    cheapest = sorted(((cost, smi, mol) for smi, (cost, mol) in found.items()), key=lambda e: (e[0], e[1]))
+    best = None
+    for cost, smi, mol in cheapest[:CHECK_COUNT]:
+        if smi not in cache:
+            cache[smi] = problem.score(smi, mol, smiles_written=False)
+        item = cache[smi]
+        if item is None:
+            continue
+        energy = cal.fit_weight * item.fit_cost + cal.prior_weight * item.prior \
+            + cal.plausibility_weight * item.plausibility
+        if best is None or (energy, smi) < best[:2]:
+            best = (energy, smi, cost)
+    return -math.inf if best is None else bound - best[2]
 
 
 def _merge_scored(a: list[ScoredStructure], b: list[ScoredStructure]) -> list[ScoredStructure]:
