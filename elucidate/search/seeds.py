@@ -120,14 +120,51 @@ def _insert(sk: Skeleton, el: str, j: int, k: int) -> Skeleton | None:
     return out
 
 
-def _unsaturate(sk: Skeleton, rng: random.Random) -> Skeleton | None:
-    cands = [a for a in range(sk.size) if sk.hydrogens[a] > 0 and not sk.charges[a]]
-    if len(cands) < 2:
+def _distances(sk: Skeleton, src: int) -> list[int]:
+    """Graph distances from ``src`` (breadth first; -1 when unreachable)."""
+    n = sk.size
+    dist = [-1] * n
+    dist[src] = 0
+    queue = [src]
+    for a in queue:
+        row = sk.bonds[a]
+        for b in range(n):
+            if row[b] and dist[b] < 0:
+                dist[b] = dist[a] + 1
+                queue.append(b)
+    return dist
+
+
+def _in_ring(sk: Skeleton, a: int, b: int) -> bool:
+    """Whether the bond a-b lies on a ring (the graph stays connected without it)."""
+    out = sk.copy()
+    out.bonds[a][b] = out.bonds[b][a] = 0
+    return out.connected()
+
+
+def _unsaturate(sk: Skeleton, rng: random.Random, fresh: list[bool]) -> Skeleton | None:
+    """One hydrogen pair fewer: close a 5- or 6-membered ring through an
+    added atom, or make a double bond between two bonded hydrogen-bearing
+    atoms (added atoms first); the rest of the skeleton stays as it was."""
+    h_atoms = [a for a in range(sk.size) if sk.hydrogens[a] > 0 and not sk.charges[a]]
+    if len(h_atoms) < 2:
         return None
-    for _ in range(20):
-        a, b = rng.sample(cands, 2)
-        if sk.bonds[a][b] >= 3:
+    rings, doubles = [], []
+    for a in h_atoms:
+        dist = _distances(sk, a)
+        for b in h_atoms:
+            if b <= a:
+                continue
+            weight = (2 if fresh[a] else 0) + (2 if fresh[b] else 0)
+            if dist[b] in (4, 5) and not sk.bonds[a][b]:
+                rings.append((weight, a, b))
+            elif dist[b] == 1 and sk.bonds[a][b] < 3:
+                doubles.append((weight, a, b))
+    for group in (rings, doubles) if rng.random() < 0.6 else (doubles, rings):
+        if not group:
             continue
+        top = max(w for w, _a, _b in group)
+        _w, a, b = rng.choice([g for g in group if g[0] == top])
         out = sk.copy()
         out.bonds[a][b] += 1
         out.bonds[b][a] += 1
@@ -137,9 +174,12 @@ def _unsaturate(sk: Skeleton, rng: random.Random) -> Skeleton | None:
     return None
 
 
-def _saturate(sk: Skeleton, rng: random.Random, valences) -> Skeleton | None:
+def _saturate(sk: Skeleton, rng: random.Random, valences, fresh: list[bool]) -> Skeleton | None:
+    """One hydrogen pair more: lower a double bond or open a ring bond
+    (added atoms first), never disconnecting the molecule."""
     pairs = [(a, b) for a in range(sk.size) for b in range(a + 1, sk.size) if sk.bonds[a][b]]
     rng.shuffle(pairs)
+    pairs.sort(key=lambda p: (-(fresh[p[0]] + fresh[p[1]]), -(sk.bonds[p[0]][p[1]] > 1)))
     for a, b in pairs:
         out = sk.copy()
         out.bonds[a][b] -= 1
@@ -152,6 +192,15 @@ def _saturate(sk: Skeleton, rng: random.Random, valences) -> Skeleton | None:
             continue
         return out
     return None
+
+
+def _ring_atoms(sk: Skeleton) -> set[int]:
+    out = set()
+    for a in range(sk.size):
+        for b in range(a + 1, sk.size):
+            if sk.bonds[a][b] and _in_ring(sk, a, b):
+                out.update((a, b))
+    return out
 
 
 def dept_mismatch(sk: Skeleton, line_hydrogens: Sequence[int | None]) -> int:
@@ -170,59 +219,77 @@ def repair_to_formula(sk: Skeleton, formula: Formula, valences: Mapping[str, Seq
                       line_hydrogens: Sequence[int | None], accept, rng: random.Random,
                       max_edits: int = 60) -> Skeleton | None:
     """Edit a reference skeleton into one with ``formula`` whose carbons' H
-    counts satisfy ``accept`` (the DEPT rule); None when it does not work out."""
+    counts satisfy ``accept`` (the DEPT rule); None when it does not work out.
+
+    The edits keep the reference's ring systems where they can: atoms are
+    removed or substituted at chain ends first, added atoms grow from one
+    another, and rings are closed or double bonds made among the added atoms
+    first.
+    """
     target = Counter({el: formula.count(el) for el in formula.elements if el != "H"})
     h_target = formula.hydrogens
     cur = sk
+    fresh = [False] * sk.size  # atoms added by the edits
     for _ in range(max_edits):
         have = Counter(cur.elements)
-        excess = [el for el in have if have[el] > target.get(el, 0)]
-        missing = [el for el in target if target[el] > have.get(el, 0)]
+        excess = sorted(el for el in have if have[el] > target.get(el, 0))
+        missing = sorted(el for el in target if target[el] > have.get(el, 0))
         dh = h_target - sum(cur.hydrogens)
         if not excess and not missing and dh == 0:
             break
         nxt = None
+        ring = _ring_atoms(cur) if (excess or missing) else set()
+
+        def order(atoms):
+            # chain ends first, then chain atoms, ring atoms last
+            return sorted(atoms, key=lambda a: (a in ring, _degree(cur, a), rng.random()))
+
         if excess and missing:
             x, y = rng.choice(excess), rng.choice(missing)
-            atoms = [a for a in range(cur.size) if cur.elements[a] == x]
-            rng.shuffle(atoms)
-            for a in atoms:
+            for a in order([a for a in range(cur.size) if cur.elements[a] == x]):
+                if a in ring and not ({x, y} <= {"C", "N"} or {x, y} <= {"O", "S"}):
+                    continue  # ring atoms only swap like for like (CH/N, O/S)
                 nxt = _substitute(cur, a, y, valences)
                 if nxt is not None:
                     break
         if nxt is None and excess:
             x = rng.choice(excess)
-            atoms = [a for a in range(cur.size) if cur.elements[a] == x]
-            atoms.sort(key=lambda a: (_degree(cur, a), rng.random()))
-            for a in atoms:
+            for a in order([a for a in range(cur.size) if cur.elements[a] == x]):
                 nxt = _remove(cur, a, valences)
                 if nxt is not None:
+                    fresh = fresh[:a] + fresh[a + 1:]
                     break
         if nxt is None and missing:
             y = rng.choice(missing)
-            if _lowest(y) >= 2 and rng.random() < 0.5:
-                bonds = [(a, b) for a in range(cur.size) for b in range(a + 1, cur.size) if cur.bonds[a][b] == 1]
+            grown = [a for a in range(cur.size) if fresh[a] and cur.hydrogens[a] > 0]
+            hosts = grown or [a for a in range(cur.size) if cur.hydrogens[a] > 0 and a not in ring] \
+                or [a for a in range(cur.size) if cur.hydrogens[a] > 0]
+            if _lowest(y) >= 2 and rng.random() < 0.3:
+                bonds = [(a, b) for a in range(cur.size) for b in range(a + 1, cur.size)
+                         if cur.bonds[a][b] == 1 and not (a in ring and b in ring)]
                 if bonds:
                     nxt = _insert(cur, y, *rng.choice(bonds))
-            if nxt is None:
-                hosts = [a for a in range(cur.size) if cur.hydrogens[a] > 0]
-                if hosts:
-                    nxt = _add(cur, y, rng.choice(hosts))
+            if nxt is None and hosts:
+                nxt = _add(cur, y, rng.choice(hosts))
+            if nxt is not None:
+                fresh = fresh + [True]
         if nxt is None and not excess and not missing:
-            nxt = _unsaturate(cur, rng) if dh < 0 else _saturate(cur, rng, valences)
+            nxt = _unsaturate(cur, rng, fresh) if dh < 0 else _saturate(cur, rng, valences, fresh)
         if nxt is None:
             return None
         cur = nxt
     have = Counter(cur.elements)
     if have != target or sum(cur.hydrogens) != h_target or not cur.connected():
         return None
-    # hydrogen moves until the carbons' H counts fit the lines
+    # hydrogen moves, only those that bring the carbons' H counts closer to
+    # the lines (added atoms first), until they fit
     miss = dept_mismatch(cur, line_hydrogens)
-    for _ in range(200):
-        if miss == 0 and accept(tuple(sorted(cur.types()))):
-            return cur
-        n = cur.size
-        i, j = rng.randrange(n), rng.randrange(n)
+    n = cur.size
+    for attempt in range(600):
+        if miss == 0:
+            break
+        pool = [a for a in range(n) if fresh[a]] if attempt < 300 and any(fresh) else list(range(n))
+        i, j = rng.choice(pool), rng.choice(pool)
         nbs = [k for k in range(n) if cur.bonds[j][k]]
         if not nbs:
             continue
@@ -230,6 +297,6 @@ def repair_to_formula(sk: Skeleton, formula: Formula, valences: Mapping[str, Seq
         if nxt is None:
             continue
         m2 = dept_mismatch(nxt, line_hydrogens)
-        if m2 <= miss:
+        if m2 < miss:
             cur, miss = nxt, m2
-    return cur if accept(tuple(sorted(cur.types()))) else None
+    return cur if miss == 0 and accept(tuple(sorted(cur.types()))) else None
