@@ -681,9 +681,11 @@ def _summary(cands: list[dict], unlisted) -> str:
             depiction_svg(c["smiles"], width=150, height=110, numbered=False, css_class="thumb"),
             f'<span class="smiles">{_e(c["smiles"])}</span>',
             _f(c.get("probability"), 3), _f(c.get("score"), 2), _f(c.get("mae_ppm")), _f(c.get("max_error_ppm")),
+            _e(c.get("found_by") or "-"),
             _e(_notes(c)),
         ])
-    table = _table(["rank", "structure", "SMILES", "probability", "score", "MAE / ppm", "max / ppm", "notes"],
+    table = _table(["rank", "structure", "SMILES", "probability", "score", "MAE / ppm", "max / ppm", "found by",
+                    "notes"],
                    rows, {0, 3, 4, 5, 6}, "Ranked candidates, best first", cls="ranked", cell_cls={1: "pic"})
     not_listed = (f"chance that the answer is none of these: <strong>{_f(unlisted, 2)}</strong>"
                   if unlisted is not None else "chance that the answer is none of these: not recorded in this result")
@@ -692,6 +694,8 @@ def _summary(cands: list[dict], unlisted) -> str:
            "rarity cost for unusual atom environments; lower is better.</li>"
            "<li><strong>Probability</strong>: chance that this structure is the answer, given that the answer "
            "is listed. <strong>MAE / max</strong>: mean and largest shift deviation.</li>"
+           "<li><strong>Found by</strong>: the search strategy that reached the structure (see the search "
+           "section for what each proves).</li>"
            f"<li><strong>Not listed</strong>: {not_listed} (see the search section).</li></ul>")
     return table + key
 

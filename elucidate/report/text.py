@@ -57,6 +57,8 @@ def render_text(data: dict) -> str:
                 notes.append(f"{len(c['unfilled_lines'])} line(s) unexplained")
             if c["max_error_ppm"] is not None and c["max_error_ppm"] > 10:
                 notes.append("large deviation")
+            if c.get("found_by") == "annealing":
+                notes.append("found by sampling")
             out.append(
                 f"{c['rank']:>4}  {c['smiles']:<{width}}  {c['probability']:>6.3f}  "
                 f"{_f(c['mae_ppm'])}  {_f(c['max_error_ppm'])}  {', '.join(notes)}"
