@@ -207,7 +207,7 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
 @click.option("--search", "search_mode", type=click.Choice(["auto", "bounded", "sampling"]), default="auto",
               show_default=True,
               help="auto: cost-bounded search with proofs first, annealing when it cannot finish; bounded: "
-                   "cost-bounded only (every statement a proof); sampling: annealing only.")
+                   "cost-bounded only, never stopping early (every statement a proof); sampling: annealing only.")
 @click.option("--chains", type=click.IntRange(min=1), default=None, metavar="N",
               help="Stop annealing after N chains: a work budget, so a run that ends by it (not by the "
                    "time limit) gives the same list on any machine. Default: until the time limit.")
