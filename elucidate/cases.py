@@ -30,14 +30,16 @@ def read_cases(path: str, limit: int | None = None, heavy: tuple[int, int] | Non
     Every case must carry the ``required`` keys.
 
     ``heavy`` keeps cases whose formula has that many heavy atoms (inclusive
-    range); ``every`` keeps every n-th remaining case; ``limit`` stops after
-    that many cases.
+    range); ``every`` keeps every n-th remaining case *within each heavy-atom
+    band* (:data:`BANDS`), so that a sample is stratified: every 5th of a
+    file with 150 cases per band gives 30 per band, whatever the order of
+    the file; ``limit`` stops after that many cases.
     """
     p = Path(path)
     if not p.is_file():
         raise InputError(f"case file {path!r} not found; give a JSON-lines file of cases")
     cases = []
-    kept = 0
+    kept: dict = {}  # cases seen so far in each band
     with p.open(encoding="utf-8") as fh:
         for lineno, line in enumerate(fh, 1):
             if not line.strip():
@@ -51,12 +53,12 @@ def read_cases(path: str, limit: int | None = None, heavy: tuple[int, int] | Non
                 raise InputError(f"{path}: line {lineno} lacks {', '.join(missing)}; "
                                  f"each case needs {', '.join(required)}")
             case.setdefault("id", f"line-{lineno}")
-            if heavy is not None:
-                n_heavy = parse_formula(case["formula"]).heavy_atoms
-                if not heavy[0] <= n_heavy <= heavy[1]:
-                    continue
-            kept += 1
-            if (kept - 1) % every:
+            n_heavy = parse_formula(case["formula"]).heavy_atoms
+            if heavy is not None and not heavy[0] <= n_heavy <= heavy[1]:
+                continue
+            band = next((b for b in BANDS if b[0] <= n_heavy <= b[1]), None)
+            kept[band] = kept.get(band, 0) + 1
+            if (kept[band] - 1) % every:
                 continue
             cases.append(case)
             if limit is not None and len(cases) >= limit:
