@@ -53,10 +53,12 @@ def read_cases(path: str, limit: int | None = None, heavy: tuple[int, int] | Non
                 raise InputError(f"{path}: line {lineno} lacks {', '.join(missing)}; "
                                  f"each case needs {', '.join(required)}")
             case.setdefault("id", f"line-{lineno}")
-            n_heavy = parse_formula(case["formula"]).heavy_atoms
-            if heavy is not None and not heavy[0] <= n_heavy <= heavy[1]:
-                continue
-            band = next((b for b in BANDS if b[0] <= n_heavy <= b[1]), None)
+            band = None  # the stratum of a case without a formula
+            if "formula" in case:
+                n_heavy = parse_formula(case["formula"]).heavy_atoms
+                if heavy is not None and not heavy[0] <= n_heavy <= heavy[1]:
+                    continue
+                band = next((b for b in BANDS if b[0] <= n_heavy <= b[1]), None)
             kept[band] = kept.get(band, 0) + 1
             if (kept[band] - 1) % every:
                 continue
