@@ -27,7 +27,8 @@ from .errors import InputError
 from .formula import Formula, parse_formula
 from .generate import WIDE_VALENCES, AtomType
 from .rank.assignment import LineEntry
-from .rank.calibration import Calibration, calibrated_scores, listed_chance, listed_probabilities, load_calibration
+from .rank.calibration import (Calibration, calibrated_scores, listed_basis, listed_chance, listed_probabilities,
+                               load_calibration)
 from .rank.scoring import ScoredStructure, StructurePrior, rank_structure
 from .search import SearchProblem, rank_key, run_search
 from .search.statement import assumptions, completeness_sentence, empty_result_warning, how_sentence
@@ -137,6 +138,8 @@ class SolveResult:
     constraint_log: tuple[tuple[str, int, int], ...]
     #: calibrated probability that the answer is none of the listed structures
     unlisted_probability: float = 0.0
+    #: which model gave ``unlisted_probability`` (words for the report)
+    unlisted_basis: str = ""
     #: one sentence: what was searched and how, and why the search ended
     search_how: str = ""
     #: one or two sentences: what is proven about the structures not listed
@@ -272,8 +275,10 @@ def solve(
     candidates = [replace(c, probability=listed * c.probability) for c in candidates]
     warnings = list(peaks.warnings)
     if status != "complete" and candidates:
-        warnings.append(f"the list is not exhaustive; calibrated probability that the answer is not listed: "
-                        f"{1.0 - listed:.2f}")
+        calibrated = "calibrated " if calibration.sampled_logit is not None or status != "sampled" else ""
+        warnings.append(f"the list is not exhaustive; {calibrated}probability that the answer is not listed: "
+                        f"{1.0 - listed:.2f}" + ("" if calibrated else " (not yet calibrated for sampled results; "
+                                                 "too high when annealing found the structures)"))
     if not candidates:
         warnings.append(empty_result_warning(status, settings.time_limit))
     return SolveResult(
@@ -288,6 +293,7 @@ def solve(
         candidates=tuple(candidates),
         constraint_log=tuple(outcome.log),
         unlisted_probability=1.0 - listed,
+        unlisted_basis=listed_basis(status, calibration),
         search_how=how_sentence(outcome.strategies, outcome.ended, settings.time_limit),
         search_steps=tuple((r.name, r.structures, round(r.seconds, 3), r.note) for r in outcome.strategies),
         search_trace=tuple(tuple(t.as_list()) for t in outcome.trace),

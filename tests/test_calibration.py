@@ -186,3 +186,19 @@ def test_bench_recalibration_matches_a_native_solve(monkeypatch):
         again = recalibrate_row(row, other)
         assert again["rank"] == native_rank[c.smiles]
         assert again["top_probability"] == pytest.approx(native.candidates[0].probability, abs=1e-4)
+
+
+def test_sampled_results_without_a_sampled_model_are_not_called_calibrated():
+    # common practice, no source: a number may only be called calibrated when
+    # a model fitted for that kind of result produced it
+    from elucidate.rank.calibration import Calibration, listed_basis
+    from elucidate.report.text import unlisted_sentence
+
+    bare = Calibration(fit_weight=1.0, prior_weight=1.0, listed_when_complete=0.97,
+                       listed_logit=(3.5, 0.8, -3.5))
+    assert "not yet calibrated" in listed_basis("sampled", bare)
+    assert listed_basis("complete up to cost", bare).startswith("calibrated")
+    fitted = Calibration(fit_weight=1.0, prior_weight=1.0, listed_when_complete=0.97,
+                         listed_logit=(3.5, 0.8, -3.5), sampled_logit=(1.0, 0.0, 0.0, 0.0))
+    assert listed_basis("sampled", fitted).startswith("calibrated")
+    assert "not yet calibrated" in unlisted_sentence(0.9, listed_basis("sampled", bare))

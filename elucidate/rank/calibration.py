@@ -58,6 +58,7 @@ __all__ = [
     "listed_probabilities",
     "listed_chance",
     "better_chance",
+    "listed_basis",
     "confident_margin",
     "fit_score_weights",
     "fit_listed_model",
@@ -200,6 +201,20 @@ def listed_chance(status: str, margin: float | None, heavy_atoms: int,
         m = max(0.0, margin) if margin is not None else 0.0
         q = _sigmoid(c0 + c1 * m + c2 * heavy_atoms / 10.0)
     return min(q, calibration.listed_when_complete)
+
+
+def listed_basis(status: str, calibration: Calibration) -> str:
+    """Which model gave :func:`listed_chance` its number, in words for the report.
+
+    A sampled result without a fitted sampled model falls back on the
+    cost-bounded model, fitted before annealing existed, when large unknowns
+    were rarely found: its chance that the answer is not listed is then too
+    high, and the report must say so rather than call it calibrated.
+    """
+    if status == "sampled" and calibration.sampled_logit is None:
+        return ("not yet calibrated for sampled results: the cost-bounded searches' model was used, which "
+                "overstates this chance when annealing found the structures")
+    return "calibrated on elucidation runs over held-out training compounds"
 
 
 def sampling_features(heavy_atoms: int, since_gain: int, total_hits: int) -> tuple[float, float, float]:

@@ -655,7 +655,7 @@ def _search(data: dict) -> str:
         out.append("<p>This holds under these assumptions:</p><ul>"
                    + "".join(f"<li>{_e(a)}</li>" for a in comp["assumptions"]) + "</ul>")
     if data.get("unlisted_probability") is not None:
-        out.append(f"<p>{_e(unlisted_sentence(data['unlisted_probability']))}</p>")
+        out.append(f"<p>{_e(unlisted_sentence(data['unlisted_probability'], data.get('unlisted_basis')))}</p>")
     facts = []
     if data.get("candidates_generated") is not None:
         facts.append(("Structures ranked", _e(f"{data['candidates_generated']:,}")))

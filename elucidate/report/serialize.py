@@ -82,6 +82,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
                    "strategies": [{"name": n, "structures": k, "seconds": sec, "note": note}
                                   for n, k, sec, note in result.search_steps]},
         "unlisted_probability": _num(result.unlisted_probability, 4),
+        "unlisted_basis": result.unlisted_basis,
         "candidates_generated": result.candidates_generated,
         "elapsed_s": _num(result.elapsed_s, 3),
         "warnings": list(result.warnings),

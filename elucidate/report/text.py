@@ -110,7 +110,7 @@ def render_text(data: dict) -> str:
     out.extend(search_statement_lines(comp))
     unlisted = data.get("unlisted_probability")
     if unlisted is not None:
-        out.append(unlisted_sentence(unlisted))
+        out.append(unlisted_sentence(unlisted, data.get("unlisted_basis")))
     out.append(data["caution"])
     return "\n".join(out) + "\n"
 
@@ -136,11 +136,11 @@ def search_statement_lines(comp: dict) -> list[str]:
     return out
 
 
-def unlisted_sentence(unlisted: float) -> str:
-    """One sentence on the chance that the answer is not listed."""
+def unlisted_sentence(unlisted: float, basis: str | None = None) -> str:
+    """One sentence on the chance that the answer is not listed (``basis``: the model behind it)."""
+    basis = basis or "calibrated on elucidation runs over held-out training compounds"
     return (f"Probability that the answer is none of the listed structures: {unlisted:.2f} "
-            "(calibrated on elucidation runs over held-out training compounds); the listed "
-            "probabilities sum to the rest.")
+            f"({basis}); the listed probabilities sum to the rest.")
 
 
 def _f(x) -> str:
