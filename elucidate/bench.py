@@ -21,7 +21,7 @@ from typing import Callable
 import numpy as np
 from rdkit import Chem
 
-from .cases import BANDS, read_cases
+from .cases import BANDS, band_of, read_cases
 from .errors import InputError
 from .formula import parse_formula
 from .rank.calibration import calibrated_scores, listed_chance, listed_probabilities
@@ -178,10 +178,8 @@ def _top_cost(result, formula, peaks, settings) -> float | None:
 
 
 def _band(n: int) -> str:
-    for lo, hi in BANDS:
-        if lo <= n <= hi:
-            return f"{lo}-{hi}"
-    return f"{n}"
+    band = band_of(n)
+    return f"{band[0]}-{band[1]}" if band else f"{n}"
 
 
 def format_bench_table(rows: list[dict], *, mode: str) -> str:

@@ -18,9 +18,14 @@ from pathlib import Path
 from .errors import InputError
 from .formula import parse_formula
 
-__all__ = ["read_cases", "BANDS"]
+__all__ = ["read_cases", "band_of", "BANDS"]
 
 BANDS = ((4, 8), (9, 12), (13, 16), (17, 22))
+
+
+def band_of(heavy_atoms: int) -> tuple[int, int] | None:
+    """The band of :data:`BANDS` holding ``heavy_atoms``; None outside them."""
+    return next((b for b in BANDS if b[0] <= heavy_atoms <= b[1]), None)
 
 
 def read_cases(path: str, limit: int | None = None, heavy: tuple[int, int] | None = None,
@@ -58,7 +63,7 @@ def read_cases(path: str, limit: int | None = None, heavy: tuple[int, int] | Non
                 n_heavy = parse_formula(case["formula"]).heavy_atoms
                 if heavy is not None and not heavy[0] <= n_heavy <= heavy[1]:
                     continue
-                band = next((b for b in BANDS if b[0] <= n_heavy <= b[1]), None)
+                band = band_of(n_heavy)
             kept[band] = kept.get(band, 0) + 1
             if (kept[band] - 1) % every:
                 continue

@@ -27,8 +27,8 @@ from .errors import InputError
 from .formula import Formula, parse_formula
 from .generate import WIDE_VALENCES, AtomType
 from .rank.assignment import LineEntry
-from .rank.calibration import (Calibration, calibrated_scores, listed_basis, listed_chance, listed_probabilities,
-                               load_calibration)
+from .rank.calibration import (Calibration, calibrated_scores, listed_basis, listed_chance, listed_is_calibrated,
+                               listed_probabilities, load_calibration)
 from .rank.scoring import ScoredStructure, StructurePrior, rank_structure
 from .search import SearchProblem, rank_key, run_search
 from .search.statement import assumptions, completeness_sentence, empty_result_warning, how_sentence
@@ -275,10 +275,12 @@ def solve(
     candidates = [replace(c, probability=listed * c.probability) for c in candidates]
     warnings = list(peaks.warnings)
     if status != "complete" and candidates:
-        calibrated = "calibrated " if calibration.sampled_logit is not None or status != "sampled" else ""
-        warnings.append(f"the list is not exhaustive; {calibrated}probability that the answer is not listed: "
-                        f"{1.0 - listed:.2f}" + ("" if calibrated else " (not yet calibrated for sampled results; "
-                                                 "too high when annealing found the structures)"))
+        if listed_is_calibrated(status, calibration):
+            warnings.append(f"the list is not exhaustive; calibrated probability that the answer is not listed: "
+                            f"{1.0 - listed:.2f}")
+        else:
+            warnings.append(f"the list is not exhaustive; probability that the answer is not listed: "
+                            f"{1.0 - listed:.2f} ({listed_basis(status, calibration)})")
     if not candidates:
         warnings.append(empty_result_warning(status, settings.time_limit))
     return SolveResult(

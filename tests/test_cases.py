@@ -8,7 +8,7 @@ from pathlib import Path
 
 import pytest
 
-from elucidate.cases import BANDS, read_cases
+from elucidate.cases import BANDS, band_of, read_cases
 from elucidate.errors import InputError
 from elucidate.formula import parse_formula
 
@@ -16,8 +16,7 @@ BENCH = Path(__file__).resolve().parents[2] / "shared" / "data" / "bench_cases.j
 
 
 def _band(formula):
-    n = parse_formula(formula).heavy_atoms
-    return next(b for b in BANDS if b[0] <= n <= b[1])
+    return band_of(parse_formula(formula).heavy_atoms)
 
 
 def test_every_counts_within_each_band(tmp_path):

@@ -59,6 +59,8 @@ __all__ = [
     "listed_chance",
     "better_chance",
     "listed_basis",
+    "listed_is_calibrated",
+    "CALIBRATED_BASIS",
     "confident_margin",
     "fit_score_weights",
     "fit_listed_model",
@@ -203,18 +205,27 @@ def listed_chance(status: str, margin: float | None, heavy_atoms: int,
     return min(q, calibration.listed_when_complete)
 
 
-def listed_basis(status: str, calibration: Calibration) -> str:
-    """Which model gave :func:`listed_chance` its number, in words for the report.
+#: how a "not listed" chance from a fitted model is described in reports
+CALIBRATED_BASIS = "calibrated on elucidation runs over held-out training compounds"
+
+
+def listed_is_calibrated(status: str, calibration: Calibration) -> bool:
+    """Whether :func:`listed_chance` uses a model fitted for this kind of result.
 
     A sampled result without a fitted sampled model falls back on the
     cost-bounded model, fitted before annealing existed, when large unknowns
     were rarely found: its chance that the answer is not listed is then too
-    high, and the report must say so rather than call it calibrated.
+    high, and must not be called calibrated.
     """
-    if status == "sampled" and calibration.sampled_logit is None:
-        return ("not yet calibrated for sampled results: the cost-bounded searches' model was used, which "
-                "overstates this chance when annealing found the structures")
-    return "calibrated on elucidation runs over held-out training compounds"
+    return not (status == "sampled" and calibration.sampled_logit is None)
+
+
+def listed_basis(status: str, calibration: Calibration) -> str:
+    """Which model gave :func:`listed_chance` its number, in words for the report."""
+    if listed_is_calibrated(status, calibration):
+        return CALIBRATED_BASIS
+    return ("not yet calibrated for sampled results: the cost-bounded searches' model was used, which "
+            "overstates this chance when annealing found the structures")
 
 
 def sampling_features(heavy_atoms: int, since_gain: int, total_hits: int) -> tuple[float, float, float]:

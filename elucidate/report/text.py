@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from ..rank.calibration import CALIBRATED_BASIS
+
 __all__ = ["render_text", "run_lines", "unlisted_sentence", "search_statement_lines"]
 
 
@@ -138,7 +140,7 @@ def search_statement_lines(comp: dict) -> list[str]:
 
 def unlisted_sentence(unlisted: float, basis: str | None = None) -> str:
     """One sentence on the chance that the answer is not listed (``basis``: the model behind it)."""
-    basis = basis or "calibrated on elucidation runs over held-out training compounds"
+    basis = basis or CALIBRATED_BASIS  # results saved before the basis was recorded
     return (f"Probability that the answer is none of the listed structures: {unlisted:.2f} "
             f"({basis}); the listed probabilities sum to the rest.")
 
