@@ -27,6 +27,7 @@ __all__ = ["solve", "check", "predict", "to_dict"]
 _SOLVE_OPTIONS = (
     "charged_nitrogen", "allow_all", "max_rings", "min_ring_size", "max_ring_size",
     "environment_margin", "keep", "search", "chains", "libraries", "neighbours", "workers",
+    "near_alternatives",
 )
 
 
@@ -101,7 +102,9 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
         ``max_ring_size``, ``environment_margin``, ``keep``, ``search``
         (``"auto"``, ``"bounded"`` or ``"sampling"``), ``chains`` (annealing
         work budget), ``libraries`` (paths of the lab's own reference
-        libraries), ``neighbours`` (reference spectra listed), ``workers``.
+        libraries), ``neighbours`` (reference spectra listed), ``workers``,
+        ``near_alternatives`` (fill a short exhaustive list up to this many with structures that
+        need one stated assumption set aside; 0: never).
 
     Returns
     -------

@@ -71,7 +71,7 @@ def run_bench(
         formula = parse_formula(case["formula"])
         answer = _canon(case["answer"])
         peaks = peaks_from_records(_records_for_mode(case["peaks"], mode))
-        row = {"id": case["id"], "formula": formula.hill, "heavy_atoms": formula.heavy_atoms}
+        row = {"id": case["id"], "formula": formula.hill, "heavy_atoms": formula.heavy_atoms, "answer": answer}
         answer_mol = Chem.MolFromSmiles(case["answer"])
         if answer_mol is not None:
             verdicts = explain_constraints(answer_mol, formula, peaks, settings)
@@ -82,8 +82,12 @@ def run_bench(
             row.update(error=str(exc), rank=None, complete=False, elapsed_s=None,
                        candidates=0, top_probability=None)
         else:
-            ranks = [c.smiles for c in result.candidates]
+            # near alternatives (which set a stated assumption aside) are listed after the
+            # constrained candidates; the rank counts the constrained list only
+            constrained = [c for c in result.candidates if not c.set_aside]
+            ranks = [c.smiles for c in constrained]
             rank = ranks.index(answer) + 1 if answer in ranks else None
+            near = [c.smiles for c in result.candidates if c.set_aside]
             status, bound = result.completeness
             cost = approximate_cost(answer_mol, formula, peaks, settings) if answer_mol is not None else None
             row.update(
@@ -94,12 +98,17 @@ def run_bench(
                 answer_cost=None if cost is None or math.isinf(cost) else round(cost, 3),
                 elapsed_s=round(result.elapsed_s, 3),
                 candidates=result.candidates_generated,
+                listed=len(result.candidates),
+                near_alternatives=len(near),
+                answer_near_alternative=answer in near,
                 top_probability=round(result.candidates[0].probability, 4) if result.candidates else None,
                 unlisted_probability=round(result.unlisted_probability, 4),
                 # per listed candidate: (assignment cost, rarity prior,
                 # plausibility), for refitting the probability calibration
                 # (rank/calibration.py)
-                fit_terms=[[c.fit_cost, c.prior, c.plausibility] for c in result.candidates],
+                fit_terms=[[c.fit_cost, c.prior, c.plausibility] for c in constrained],
+                # the constrained candidates in the same order, for motif checks (listing_check)
+                listed_smiles=ranks,
                 top_cost=_top_cost(result, formula, peaks, settings),
                 # sampling rounds (see SolveResult.search_trace), for the early-stop model
                 trace=[list(t) for t in result.search_trace],
@@ -220,6 +229,8 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
     lines.append("surv = the answer passes every default constraint (checked on the answer itself)")
     lines.extend(calibration_table(rows))
     lines.extend(unlisted_check(rows))
+    lines.extend(listing_check(rows))
+    lines.extend(motif_check(rows))
     killers: dict[str, int] = {}
     for r in rows:
         for name in r.get("answer_failed_constraints", []):
@@ -230,6 +241,65 @@ def format_bench_table(rows: list[dict], *, mode: str) -> str:
     if errors:
         lines.append(f"{len(errors)} case(s) rejected as input errors, e.g. {errors[0]['id']}: {errors[0]['error']}")
     return "\n".join(lines)
+
+
+def listing_check(rows: list[dict], least: int = 5) -> list[str]:
+    """How many candidates each case listed (rows written before the
+    ``listed`` field carry none and are skipped).
+
+    >>> listing_check([{"listed": 10, "near_alternatives": 0}, {"listed": 5, "near_alternatives": 4},
+    ...                {"listed": 0, "near_alternatives": 0}])
+    ['listed candidates: fewest 0; cases under 5: 1 of 3; cases filled with near alternatives: 1']
+    """
+    sel = [r for r in rows if r.get("listed") is not None]
+    if not sel:
+        return []
+    under = sum(1 for r in sel if r["listed"] < least)
+    filled = sum(1 for r in sel if r.get("near_alternatives"))
+    return [f"listed candidates: fewest {min(r['listed'] for r in sel)}; cases under {least}: {under} of "
+            f"{len(sel)}; cases filled with near alternatives: {filled}"]
+
+
+def motif_check(rows: list[dict], table=None, calibration=None, top: int = 5) -> list[str]:
+    """Share of listed top-``top`` candidates with a ring or small-ring bond
+    pattern absent from the training constitutions
+    (:func:`~elucidate.constraints.plausibility.absent_motifs`), over the
+    cases whose answer has none. With ``calibration``, the candidates are
+    re-ranked from their ``fit_terms`` first (e.g. with the plausibility
+    weight set to 0, to see what the term changes on the same lists).
+    """
+    from .constraints.plausibility import absent_motifs, load_plausibility_table
+
+    sel = [r for r in rows if r.get("listed_smiles") and r.get("answer")]
+    table = table if table is not None else load_plausibility_table()
+    if not sel or table is None:
+        return []
+    memo: dict[str, bool] = {}
+
+    def exotic(smiles: str) -> bool:
+        if smiles not in memo:
+            mol = Chem.MolFromSmiles(smiles)
+            memo[smiles] = bool(mol is not None and absent_motifs(mol, table))
+        return memo[smiles]
+
+    shown = flagged = cases = 0
+    for r in sel:
+        if exotic(r["answer"]):
+            continue
+        cases += 1
+        names = list(r["listed_smiles"])
+        if calibration is not None and r.get("fit_terms"):
+            t = r["fit_terms"]
+            scores = calibrated_scores([x[0] for x in t], [x[1] for x in t], calibration,
+                                       [x[2] if len(x) > 2 else 0.0 for x in t])
+            names = [names[i] for i in sorted(range(len(names)), key=lambda i: (float(scores[i]), names[i]))]
+        for s in names[:top]:
+            shown += 1
+            flagged += exotic(s)
+    if not shown:
+        return []
+    return [f"top-{top} candidates with a ring/small-ring pattern absent from the training constitutions: "
+            f"{100.0 * flagged / shown:.1f} % of {shown} (over {cases} cases whose answer has none)"]
 
 
 def unlisted_check(rows: list[dict]) -> list[str]:

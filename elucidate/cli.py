@@ -214,6 +214,10 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
 @_library_option
 @click.option("--neighbours", type=click.IntRange(min=0), default=5, show_default=True,
               help="Reference spectra most similar to the sample's, listed with the result (0: none).")
+@click.option("--near-alternatives", type=click.IntRange(min=0), default=5, show_default=True, metavar="N",
+              help="When the exhaustive search proves fewer than N structures meet every constraint, list near "
+                   "alternatives after them: structures that fit with the DEPT multiplicities (then also the "
+                   "shift-environment check) set aside, each saying what it would change; not rated (0: never).")
 @click.option("--sample-id", default=None, metavar="ID", help="The lab's sample ID, shown in the report header.")
 @click.option("--analyst", default=None, metavar="NAME",
               help="Analyst's name for the report's sign-off block (blank lines when not given).")
@@ -221,7 +225,7 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Reviewer's name for the report's sign-off block (blank lines when not given).")
 def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90, valence, charged_nitrogen,
           require, forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
-          scaffold, search_mode, chains, libraries, neighbours, sample_id, analyst, reviewer):
+          scaffold, search_mode, chains, libraries, neighbours, near_alternatives, sample_id, analyst, reviewer):
     """Rank every structure consistent with a formula and a 13C peak list.
 
     Peaks: one line per signal, 'shift [multiplicity] [count]'; multiplicity
@@ -257,7 +261,7 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90
         min_ring_size=min_ring_size, max_ring_size=max_ring_size,
         symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
         time_limit=time_limit, top=top, scaffold=scaffold, search=search_mode, chains=chains,
-        libraries=tuple(libraries), neighbours=neighbours,
+        libraries=tuple(libraries), neighbours=neighbours, near_alternatives=near_alternatives,
     )
     source = peaks
     if dept135 or dept90:

@@ -82,6 +82,8 @@ class SolveSettings:
     search: str = "auto"  # auto | bounded | sampling (see elucidate.search)
     chains: int | None = None  # annealing chains at most (work budget; reproducible when it, not time, ends the run)
     neighbours: int = 5  # reference spectra most similar to the observed one, listed with the result
+    #: when an exhaustive search proves fewer structures than this, list near alternatives (0: never)
+    near_alternatives: int = 5
     libraries: tuple[str, ...] = ()  # a lab's own reference libraries (SD or JSON lines), besides the shipped one
 
     def __post_init__(self):
@@ -95,6 +97,10 @@ class SolveSettings:
             raise InputError(f"--chains must be at least 1, got {self.chains}")
         if self.neighbours < 0:
             raise InputError(f"--neighbours must be 0 or more, got {self.neighbours}")
+        if isinstance(self.near_alternatives, bool) or not isinstance(self.near_alternatives, int) \
+                or self.near_alternatives < 0:
+            raise InputError(f"--near-alternatives must be a whole number >= 0 (0: never list them), "
+                             f"got {self.near_alternatives!r}")
         if not (isinstance(self.plausibility_weight, (int, float)) and 0 <= self.plausibility_weight < math.inf):
             raise InputError(f"plausibility_weight must be a number >= 0 (0 switches the plausibility cost "
                              f"off), got {self.plausibility_weight!r}")
@@ -122,6 +128,9 @@ class Candidate:
     fit_cost: float = 0.0  # assignment part (shift likelihood, overlap/split) of the raw score
     found_by: str = ""  # the search strategy that found it
     plausibility: float = 0.0  # plausibility part (ring systems, small rings, second spheres) of the raw score
+    #: "" when the structure meets every constraint; otherwise which stated assumption it needs set
+    #: aside and what it would change (a near alternative, listed after every constrained candidate)
+    set_aside: str = ""
 
 
 @dataclass(frozen=True)
@@ -274,6 +283,14 @@ def solve(
     listed = listed_chance(status, margin, formula.heavy_atoms, calibration, sampling) if candidates else 0.0
     candidates = [replace(c, probability=listed * c.probability) for c in candidates]
     warnings = list(peaks.warnings)
+    if len(candidates) < min(settings.near_alternatives, settings.top):
+        near = _near_alternatives(formula, peaks, settings, candidates, start)
+        if near:
+            proven = "meet" if status == "complete" else "were found that meet"
+            warnings.append(
+                f"only {len(candidates)} structure(s) {proven} every constraint; {len(near)} near alternative(s) "
+                f"follow, each needing one stated assumption set aside (said beside it; not rated)")
+        candidates = candidates + near
     if status != "complete" and candidates:
         if listed_is_calibrated(status, calibration):
             warnings.append(f"the list is not exhaustive; calibrated probability that the answer is not listed: "
@@ -304,6 +321,79 @@ def solve(
         assumptions=tuple(_assumptions(cons, settings, peaks)),
         reference_neighbours=tuple(_neighbours(peaks, formula, settings, library)),
     )
+
+
+_H_NAMES = ("C", "CH", "CH2", "CH3", "CH4")
+
+
+def _near_alternatives(formula: Formula, peaks: PeakList, settings: SolveSettings,
+                       listed: list[Candidate], start: float) -> list[Candidate]:
+    """Structures that fit if one stated assumption is set aside, to fill a
+    short list up to ``settings.near_alternatives``.
+
+    When the search proves (or finds) only a few structures that meet every
+    constraint, a chemist still wants to see what comes next, above all in
+    case a DEPT line was misread. The steps, each tried only while the list
+    is short: (1) the DEPT multiplicities set aside (the shifts and the
+    formula kept); (2) the shift-environment check set aside as well. Each
+    alternative says which assumption it needs set aside and, for (1), the
+    lines whose multiplicity it would change. They are ranked after every
+    constrained candidate with probability 0 (the data as given exclude
+    them), so the completeness statement and the listed-answer chance keep
+    speaking of the constrained list alone. The extra searches share the
+    time limit: together at most a quarter of it, never past it; only an
+    exhaustive relaxed search contributes (so the list is deterministic).
+    """
+    need = min(settings.near_alternatives, settings.top) - len(listed)
+    have = {c.smiles for c in listed}
+    plain = PeakList(tuple(replace(p, hydrogens=None) for p in peaks.peaks), observe_mhz=peaks.observe_mhz)
+    steps = []
+    with_dept = any(p.hydrogens is not None for p in peaks.peaks)
+    if with_dept:
+        steps.append(("DEPT multiplicities set aside", plain, settings.environment_margin))
+    if settings.environment_margin is not None:
+        steps.append((("DEPT multiplicities and " if with_dept else "") + "the shift-environment check set aside",
+                      plain, None))
+    budget_end = min(start + settings.time_limit, time.monotonic() + 0.25 * settings.time_limit)
+    out: list[Candidate] = []
+    for label, step_peaks, margin in steps:
+        left = budget_end - time.monotonic()
+        if need <= 0 or left < 0.5:
+            break
+        relaxed = replace(settings, environment_margin=margin, solvent=None, time_limit=left,
+                          near_alternatives=0, neighbours=0, top=settings.top, search="bounded")
+        result = solve(formula, step_peaks, relaxed)
+        if result.completeness[0] != "complete":
+            # only an exhaustive relaxed search gives the same alternatives on every run and machine
+            break
+        fresh = [c for c in result.candidates if c.smiles not in have]
+        # a misread DEPT usually concerns one line: fewest changed lines first, then the relaxed ranking
+        changes = [_multiplicity_changes(c, peaks) for c in fresh]
+        for k in sorted(range(len(fresh)), key=lambda k: (len(changes[k]), k))[:max(need, 0)]:
+            have.add(fresh[k].smiles)
+            note = (": " + "; ".join(changes[k])) if changes[k] else ""
+            out.append(replace(fresh[k], probability=0.0, set_aside=label + note))
+        need = min(settings.near_alternatives, settings.top) - len(listed) - len(out)
+    return out
+
+
+def _multiplicity_changes(candidate: Candidate, peaks: PeakList) -> list[str]:
+    """'line 3 (26.5 ppm) CH2, given CH3' for each line whose given
+    multiplicity the candidate's carbons on it contradict."""
+    hydrogens = {atom: h for atom, h, _shift, _sigma in candidate.predicted}
+    on_line: dict[int, set[int]] = {}
+    observed: dict[int, float] = {}
+    for e in candidate.assignment:
+        on_line.setdefault(e.peak_index, set()).update(hydrogens[a] for a in e.atoms if a in hydrogens)
+        observed[e.peak_index] = e.observed
+    changes = []
+    for i in sorted(on_line):
+        given = peaks.peaks[i].hydrogens
+        found = sorted(on_line[i])
+        if given is not None and found and found != [given]:
+            names = " + ".join(_H_NAMES[h] for h in found)
+            changes.append(f"line {i + 1} ({observed[i]:.1f} ppm) {names}, given {_H_NAMES[given]}")
+    return changes
 
 
 def _structure_prior(rule, settings: SolveSettings) -> StructurePrior | None:

@@ -138,12 +138,30 @@ def main():
 @click.argument("rows", nargs=-1, required=True, type=click.Path(exists=True, dir_okay=False))
 @click.option("--out", default=str(DEFAULT_CALIBRATION_PATH), show_default=True)
 @click.option("--time-limit", default=60.0, show_default=True, help="Time limit the rows were run with.")
-def fit(rows, out, time_limit):
+@click.option("--sampling-only", is_flag=True,
+              help="Keep the score weights and the cost-bounded listed-answer model of the shipped calibration "
+                   "(the ones the runs were made with) and fit only listed_when_complete, the sampled "
+                   "listed-answer model and the early-stop model (how the 2026-12-03 file was made; DEVELOPERS.md).")
+def fit(rows, out, time_limit, sampling_only):
     """Fit weights and the listed-answer model on held-out bench rows."""
+    import dataclasses
+
     data = [r for r in _rows(rows) if r.get("fit_terms")]
     if not data:
         raise click.UsageError("no row carries fit_terms; run `elucidate bench ... -o ROWS` with this version")
     cal = _fit(data, time_limit)
+    if sampling_only:
+        kept = load_calibration()
+        provenance = dict(cal.provenance)
+        provenance["method"] = (
+            "score weights and the cost-bounded listed-answer model (listed_logit) kept from the fit of "
+            f"{kept.provenance.get('fitted', 'unknown date')} (the held-out runs were made with them); "
+            "listed_when_complete, the sampled listed-answer model and the early-stop model fitted on these "
+            "runs (logistic models, rank/calibration.py)")
+        provenance["plausibility_weight"] = f"kept ({kept.plausibility_weight}; refit gave {cal.plausibility_weight})"
+        provenance["weights_fitted"] = kept.provenance.get("fitted")
+        cal = dataclasses.replace(kept, listed_when_complete=cal.listed_when_complete,
+                                  sampled_logit=cal.sampled_logit, stop_logit=cal.stop_logit, provenance=provenance)
     Path(out).write_text(json.dumps(cal.to_dict(), indent=1) + "\n", encoding="utf-8")
     click.echo(json.dumps(cal.to_dict(), indent=1))
 
@@ -151,11 +169,17 @@ def fit(rows, out, time_limit):
 @main.command("heldout-start")
 @click.argument("out", type=click.Path(dir_okay=False))
 def heldout_start(out):
-    """Write the shipped calibration without its early-stop model to OUT (for held-out runs that
-    must go to the time limit)."""
+    """Write the shipped calibration without its early-stop models to OUT (for held-out runs that
+    must go to the time limit).
+
+    Both early stops go: the annealing's (``stop_logit``) and the cost-bounded search's confident
+    stop, which rests on the listed-answer model (``listed_logit``). Runs cut short by the model
+    being refitted leave it nothing to learn from: after the 2026-12-03 fit, made on runs that the
+    old model had stopped at its own margin, the margin slope fell from 0.85 to 0.03. The score
+    weights stay (they decide the ranking the runs record)."""
     import dataclasses
 
-    cal = dataclasses.replace(load_calibration(), stop_logit=None)
+    cal = dataclasses.replace(load_calibration(), stop_logit=None, listed_logit=None)
     Path(out).write_text(json.dumps(cal.to_dict(), indent=1) + "\n", encoding="utf-8")
     click.echo(f"wrote {out}")
 

@@ -154,8 +154,12 @@ def test_solve_reports_the_unlisted_share():
     assert total == pytest.approx(1.0, abs=1e-6)
     assert res.unlisted_probability == pytest.approx(1 - load_calibration().listed_when_complete, abs=1e-9)
     assert res.candidates[0].smiles == "CCOC(C)=O"
-    scores = [c.score for c in res.candidates]
+    # constrained candidates best first; near alternatives (if any) follow them, unrated
+    constrained = [c for c in res.candidates if not c.set_aside]
+    scores = [c.score for c in constrained]
     assert scores == sorted(scores)
+    assert res.candidates[:len(constrained)] == tuple(constrained)
+    assert all(c.probability == 0.0 for c in res.candidates[len(constrained):])
 
 
 def test_bench_recalibration_matches_a_native_solve(monkeypatch):

@@ -118,6 +118,7 @@ __all__ = [
     "build_plausibility_table",
     "load_plausibility_table",
     "plausibility_cost",
+    "absent_motifs",
     "motif_rarity",
     "SCALE",
     "SECOND_SHARE",
@@ -594,3 +595,25 @@ def plausibility_cost(mol: Chem.Mol, table: PlausibilityTable | None = None) -> 
                          "parse SMILES with rdkit.Chem.MolFromSmiles first")
     table = table if table is not None else load_plausibility_table()
     return 0.0 if table is None else table.cost(mol)
+
+
+def absent_motifs(mol: Chem.Mol, table: PlausibilityTable) -> list[str]:
+    """The ring and small-ring bond patterns of ``mol`` that no training
+    constitution has: ring keys (ring size, aromaticity, heteroatoms and the
+    bond orders in and at the ring), fused ring pairs and cumulated bonds
+    with a count of 0 in ``table``. Used to measure how often exotic
+    structures reach the top of a list (``elucidate bench``).
+
+    >>> t = PlausibilityTable({k: {} for k in KINDS})
+    >>> absent_motifs(Chem.MolFromSmiles("CCO"), t)
+    []
+    >>> absent_motifs(Chem.MolFromSmiles("C1=CC1"), t)
+    ['3:C-C-C=']
+    """
+    m = mol_motifs(mol)
+    out = []
+    for rings, pairs, _exact in m.systems:
+        out += [k for k in rings if table.count("rings", k) == 0]
+        out += [k for k in pairs if table.count("pairs", k) == 0]
+    out += [k for k in m.cumulated if table.count("cumulated", k) == 0]
+    return sorted(set(out))

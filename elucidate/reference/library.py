@@ -360,6 +360,10 @@ def read_sdf_entries(path, *, origin: str | None = None) -> Iterator[ReferenceEn
     with _open_text(path) as fh:
         try:
             for k, start, molblock, items in _sdf_records(fh):
+                if "ELUCIDATE_SET_ASIDE" in items:
+                    # a near alternative exported by elucidate contradicts the filed spectrum's
+                    # multiplicities by definition: it is no reference for that spectrum
+                    continue
                 title = molblock.split("\n", 1)[0].strip()
                 where = f"{path.name} record {k} (line {start}{', ' + repr(title) if title else ''})"
                 yield _sdf_entry(molblock, items, where, k, title, origin)

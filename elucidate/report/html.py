@@ -539,6 +539,8 @@ def _notes(c: dict) -> str:
         notes.append(f"{len(c['unfilled_lines'])} line(s) unexplained")
     if c.get("max_error_ppm") is not None and float(c["max_error_ppm"]) > 10:
         notes.append("a deviation above 10 ppm")
+    if c.get("set_aside"):
+        notes.append("near alternative, not rated (it does not meet every constraint): " + str(c["set_aside"]))
     for note in c.get("notes", []) or []:
         notes.append(str(note))
     return "; ".join(notes)

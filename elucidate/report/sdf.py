@@ -152,6 +152,8 @@ def render_sdf(data: dict, *, top: int | None = None) -> str:
             ("ELUCIDATE_MAE_PPM", _num(c.get("mae_ppm"), 2)),
             ("ELUCIDATE_MAX_ERROR_PPM", _num(c.get("max_error_ppm"), 2)),
         ]
+        if c.get("set_aside"):
+            props.append(("ELUCIDATE_SET_ASIDE", str(c["set_aside"])))
         if "complete" in data:
             props.append(("ELUCIDATE_SEARCH_COMPLETE", "yes" if data["complete"] else "no"))
         if data.get("unlisted_probability") is not None:

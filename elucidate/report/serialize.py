@@ -121,6 +121,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
                 "split_classes": c.splits,
                 "unfilled_lines": list(c.unfilled),
                 "found_by": c.found_by,
+                "set_aside": c.set_aside,
                 "assignment": [
                     {
                         "peak_index": e.peak_index,

@@ -61,6 +61,8 @@ def render_text(data: dict) -> str:
                 notes.append("large deviation")
             if c.get("found_by") == "annealing":
                 notes.append("found by sampling")
+            if c.get("set_aside"):
+                notes.append("near alternative, not rated: " + c["set_aside"])
             out.append(
                 f"{c['rank']:>4}  {c['smiles']:<{width}}  {c['probability']:>6.3f}  "
                 f"{_f(c['mae_ppm'])}  {_f(c['max_error_ppm'])}  {', '.join(notes)}"
