@@ -99,3 +99,14 @@ def test_sdf_marks_the_near_alternatives(tmp_path):
     assert len(mols) >= 5
     assert not mols[0].HasProp("ELUCIDATE_SET_ASIDE")
     assert all(m.GetProp("ELUCIDATE_SET_ASIDE").startswith("DEPT multiplicities set aside") for m in mols[1:])
+
+
+def test_check_never_offers_a_near_alternative():
+    # verifying THF: every structure the isomer search offers must fit the data as given
+    # (near alternatives contradict the DEPT lines, so they are no alternative to the expected one)
+    import elucidate
+
+    report = elucidate.check("C1CCOC1", THF, time_limit=20)
+    assert all(a.smiles != "OC1CCC1" for a in report.alternatives)
+    assert all(not getattr(a, "set_aside", "") for a in report.alternatives)
+    assert report.verdict == "consistent"

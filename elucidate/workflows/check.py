@@ -303,8 +303,9 @@ def _search_alternatives(formula, peaks, expected: Chem.Mol, expected_cost: floa
             complete = False
             continue
         budget = min(budget, left) if budget else left
+        # near_alternatives=0: an alternative to the expected structure must fit the data as given
         settings = SolveSettings(scaffold=scaf, time_limit=budget, top=keep, keep=keep,
-                                 charged_nitrogen=charged, allow_all=allow_all)
+                                 charged_nitrogen=charged, allow_all=allow_all, near_alternatives=0)
         if progress:
             progress(f"searching isomers ({name}, up to {budget:.0f} s)")
         t0 = time.monotonic()
