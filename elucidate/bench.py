@@ -124,6 +124,14 @@ def run_bench(
     return rows
 
 
+def row_scores(row: dict, calibration) -> np.ndarray:
+    """Calibrated scores of a bench row's listed candidates from their
+    ``fit_terms`` (rows written before the plausibility term count it as 0)."""
+    terms = row["fit_terms"]
+    return calibrated_scores([t[0] for t in terms], [t[1] for t in terms], calibration,
+                             [t[2] if len(t) > 2 else 0.0 for t in terms])
+
+
 def recalibrate_row(row: dict, calibration) -> dict:
     """A bench row as another calibration would have ranked it.
 
@@ -134,13 +142,9 @@ def recalibrate_row(row: dict, calibration) -> dict:
     as 0), ``status``, ``cost_bound`` and ``top_cost``.  The answer's new rank counts the
     candidates with a strictly lower calibrated score (ties go to the answer).
     """
-    terms = row.get("fit_terms")
-    if not terms:
+    if not row.get("fit_terms"):
         return dict(row)
-    f = [t[0] for t in terms]
-    r = [t[1] for t in terms]
-    v = [t[2] if len(t) > 2 else 0.0 for t in terms]
-    scores = calibrated_scores(f, r, calibration, v)
+    scores = row_scores(row, calibration)
     probs = listed_probabilities(scores)
     best = int(np.argmin(scores))
     out = dict(row)
@@ -289,9 +293,7 @@ def motif_check(rows: list[dict], table=None, calibration=None, top: int = 5) ->
         cases += 1
         names = list(r["listed_smiles"])
         if calibration is not None and r.get("fit_terms"):
-            t = r["fit_terms"]
-            scores = calibrated_scores([x[0] for x in t], [x[1] for x in t], calibration,
-                                       [x[2] if len(x) > 2 else 0.0 for x in t])
+            scores = row_scores(r, calibration)
             names = [names[i] for i in sorted(range(len(names)), key=lambda i: (float(scores[i]), names[i]))]
         for s in names[:top]:
             shown += 1

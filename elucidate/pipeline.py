@@ -344,7 +344,7 @@ def _near_alternatives(formula: Formula, peaks: PeakList, settings: SolveSetting
     time limit: together at most a quarter of it, never past it; only an
     exhaustive relaxed search contributes (so the list is deterministic).
     """
-    need = min(settings.near_alternatives, settings.top) - len(listed)
+    wanted = min(settings.near_alternatives, settings.top) - len(listed)
     have = {c.smiles for c in listed}
     plain = PeakList(tuple(replace(p, hydrogens=None) for p in peaks.peaks), observe_mhz=peaks.observe_mhz)
     steps = []
@@ -358,10 +358,12 @@ def _near_alternatives(formula: Formula, peaks: PeakList, settings: SolveSetting
     out: list[Candidate] = []
     for label, step_peaks, margin in steps:
         left = budget_end - time.monotonic()
+        need = wanted - len(out)
         if need <= 0 or left < 0.5:
             break
+        # bounded search: no annealing, so the lab's libraries (read only for its seeds) are not needed
         relaxed = replace(settings, environment_margin=margin, solvent=None, time_limit=left,
-                          near_alternatives=0, neighbours=0, top=settings.top, search="bounded")
+                          near_alternatives=0, neighbours=0, libraries=(), search="bounded")
         result = solve(formula, step_peaks, relaxed)
         if result.completeness[0] != "complete":
             # only an exhaustive relaxed search gives the same alternatives on every run and machine
@@ -369,11 +371,10 @@ def _near_alternatives(formula: Formula, peaks: PeakList, settings: SolveSetting
         fresh = [c for c in result.candidates if c.smiles not in have]
         # a misread DEPT usually concerns one line: fewest changed lines first, then the relaxed ranking
         changes = [_multiplicity_changes(c, peaks) for c in fresh]
-        for k in sorted(range(len(fresh)), key=lambda k: (len(changes[k]), k))[:max(need, 0)]:
+        for k in sorted(range(len(fresh)), key=lambda k: (len(changes[k]), k))[:need]:
             have.add(fresh[k].smiles)
             note = (": " + "; ".join(changes[k])) if changes[k] else ""
             out.append(replace(fresh[k], probability=0.0, set_aside=label + note))
-        need = min(settings.near_alternatives, settings.top) - len(listed) - len(out)
     return out
 
 
