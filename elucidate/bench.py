@@ -27,9 +27,13 @@ from .formula import parse_formula
 from .rank.calibration import calibrated_scores, listed_chance, listed_probabilities
 from .pipeline import SolveSettings, approximate_cost, explain_constraints, prepare_peaks, solve
 from .spectrum.peaks import peaks_from_records
+from .synthetic_correlations import synthetic_correlations
 
 __all__ = ["read_cases", "run_bench", "recalibrate_row", "format_bench_table", "calibration_table",
-           "unlisted_check", "BANDS"]
+           "unlisted_check", "BANDS", "CORRELATION_MODES"]
+
+#: 2D correlations given to the bench cases: none, or synthetic ones made from the answer.
+CORRELATION_MODES = ("none", "synthetic", "synthetic+cosy")
 
 def _canon(smiles: str) -> str | None:
     mol = Chem.MolFromSmiles(smiles)
@@ -58,12 +62,20 @@ def run_bench(
     time_limit: float = 60.0,
     keep: int = 100,
     search: str = "auto",
+    correlations: str = "none",
     progress: Callable[[str], None] | None = None,
     on_row: Callable[[dict], None] | None = None,
 ) -> list[dict]:
-    """Solve every case; one result row per case (``on_row`` gets each as it is done)."""
+    """Solve every case; one result row per case (``on_row`` gets each as it is done).
+
+    ``correlations``: ``"none"``, or ``"synthetic"`` (HSQC + HMBC) or
+    ``"synthetic+cosy"`` made from each answer
+    (:mod:`elucidate.synthetic_correlations`; synthetic data, not measured).
+    """
     if mode not in ("mult", "plain", "count"):
         raise InputError(f"mode {mode!r} unknown; use mult, plain or count")
+    if correlations not in CORRELATION_MODES:
+        raise InputError(f"correlations {correlations!r} unknown; use one of {', '.join(CORRELATION_MODES)}")
     rows = []
     cases = read_cases(path, limit, heavy, every)
     settings = SolveSettings(time_limit=time_limit, top=keep, keep=keep, search=search)
@@ -76,8 +88,13 @@ def run_bench(
         if answer_mol is not None:
             verdicts = explain_constraints(answer_mol, formula, peaks, settings)
             row["answer_failed_constraints"] = [name for name, ok in verdicts if not ok]
+        table = None
+        if correlations != "none" and answer_mol is not None:
+            table = synthetic_correlations(answer_mol, prepare_peaks(formula, peaks, None).peaks,
+                                           seed=case["id"], cosy=correlations == "synthetic+cosy")
+            row["correlation_rows"] = len(table) if table is not None else 0
         try:
-            result = solve(formula, peaks, settings)
+            result = solve(formula, peaks, settings, correlations=table)
         except InputError as exc:
             row.update(error=str(exc), rank=None, complete=False, elapsed_s=None,
                        candidates=0, top_probability=None)
@@ -113,7 +130,7 @@ def run_bench(
                 # sampling rounds (see SolveResult.search_trace), for the early-stop model
                 trace=[list(t) for t in result.search_trace],
                 ended=result.search_ended,
-                answer_energy=_answer_energy(answer_mol, formula, peaks, settings),
+                answer_energy=_answer_energy(answer_mol, formula, peaks, settings, table),
             )
         rows.append(row)
         if on_row is not None:
@@ -163,7 +180,7 @@ def recalibrate_row(row: dict, calibration) -> dict:
     return out
 
 
-def _answer_energy(answer_mol, formula, peaks, settings) -> list | None:
+def _answer_energy(answer_mol, formula, peaks, settings, table=None) -> list | None:
     """The answer's own (assignment cost, prior): where it would rank, and
     whether a miss was the search's fault (a better-scoring answer unfound)
     or the ranking's."""
@@ -175,7 +192,14 @@ def _answer_energy(answer_mol, formula, peaks, settings) -> list | None:
     prepared = prepare_peaks(formula, peaks, settings.solvent)
     rule = _constraints(formula, prepared, settings).rule
     smiles = Chem.MolToSmiles(answer_mol, isomericSmiles=False)
-    scored = score_structure(smiles, answer_mol, prepared.peaks, _structure_prior(rule, settings))
+    evidence = None
+    if table is not None:
+        from .constraints.correlations import link_correlations
+
+        evidence = link_correlations(table, prepared.peaks, h_tolerance=settings.match_1h,
+                                     c_tolerance=settings.match_13c)
+    scored = score_structure(smiles, answer_mol, prepared.peaks, _structure_prior(rule, settings),
+                             evidence=evidence)
     if scored is None:
         return None
     return [round(scored.fit_cost, 4), round(scored.prior, 4), round(scored.plausibility, 4)]

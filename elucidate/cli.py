@@ -218,6 +218,15 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="When the exhaustive search proves fewer than N structures meet every constraint, list near "
                    "alternatives after them: structures that fit with the DEPT multiplicities (then also the "
                    "shift-environment check) set aside, each saying what it would change; not rated (0: never).")
+@click.option("--correlations", default=None, metavar="FILE",
+              help="2D cross peaks, one per line: experiment (HSQC, HMBC, H2BC, COSY), 1H shift, 13C shift "
+                   "(COSY: second 1H shift), e.g. 'HMBC 2.55 197.8'; '#' comments. Scored as evidence: "
+                   "HMBC met at 2-3 bonds, 4 bonds at a small cost (docs/correlations.md).")
+@click.option("--match-1h", type=click.FloatRange(min=0, min_open=True), default=0.02, show_default=True,
+              metavar="PPM", help="1H tolerance tying HMBC/COSY protons to HSQC protons.")
+@click.option("--match-13c", type=click.FloatRange(min=0, min_open=True), default=0.5, show_default=True,
+              metavar="PPM", help="13C tolerance tying cross peaks to the 13C lines (several lines within it: "
+                                  "a choice, never an error).")
 @click.option("--sample-id", default=None, metavar="ID", help="The lab's sample ID, shown in the report header.")
 @click.option("--analyst", default=None, metavar="NAME",
               help="Analyst's name for the report's sign-off block (blank lines when not given).")
@@ -225,7 +234,8 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Reviewer's name for the report's sign-off block (blank lines when not given).")
 def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90, valence, charged_nitrogen,
           require, forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
-          scaffold, search_mode, chains, libraries, neighbours, near_alternatives, sample_id, analyst, reviewer):
+          scaffold, search_mode, chains, libraries, neighbours, near_alternatives, correlations, match_1h,
+          match_13c, sample_id, analyst, reviewer):
     """Rank every structure consistent with a formula and a 13C peak list.
 
     Peaks: one line per signal, 'shift [multiplicity] [count]'; multiplicity
@@ -262,13 +272,19 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90
         symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
         time_limit=time_limit, top=top, scaffold=scaffold, search=search_mode, chains=chains,
         libraries=tuple(libraries), neighbours=neighbours, near_alternatives=near_alternatives,
+        match_1h=match_1h, match_13c=match_13c,
     )
     source = peaks
     if dept135 or dept90:
         from .spectrum.peaks import read_peaks
 
         peaks = read_peaks(peaks, dept135=dept135, dept90=dept90)
-    result = run_solve(f, peaks, settings, progress=_progress_printer())
+    table = None
+    if correlations is not None:
+        from .spectrum.correlations import read_correlations
+
+        table = read_correlations(correlations)
+    result = run_solve(f, peaks, settings, progress=_progress_printer(), correlations=table)
     _clear_progress()
     data = result_to_dict(result, run=run_info, spectrum=trace_for_peaks(source))
     _write(_render(data, fmt, origin="run"), output)
@@ -427,9 +443,14 @@ _NO_CARBON_NOTE = "no carbon atoms: nothing to predict"
               help="Seconds per case.")
 @click.option("--search", "search_mode", type=click.Choice(["auto", "bounded", "sampling"]), default="auto",
               show_default=True, help="Search strategies, as for 'solve --search'.")
+@click.option("--correlations", "correlations", type=click.Choice(["none", "synthetic", "synthetic+cosy"]),
+              default="none", show_default=True,
+              help="2D correlations given to each case: synthetic HSQC + HMBC (+ COSY) made from the answer "
+                   "(placeholder 1H shifts, 25 % of HMBC dropped, 5 % 4-bond extras; synthetic, not measured: "
+                   "docs/correlations.md).")
 @click.option("--output", "-o", default=None,
               help="Also write per-case results (JSON lines) here, each as soon as it is done.")
-def bench(cases, mode, limit, heavy, every, time_limit, search_mode, output):
+def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlations, output):
     """Measure elucidation on a case file (JSON lines with formula, peaks, answer).
 
     Prints top-1/top-5/found rates and times per heavy-atom band.
@@ -461,7 +482,7 @@ def bench(cases, mode, limit, heavy, every, time_limit, search_mode, output):
 
     try:
         rows = run_bench(cases, mode=mode, limit=limit, heavy=band, every=every, time_limit=time_limit,
-                         search=search_mode, on_row=write_row,
+                         search=search_mode, correlations=correlations, on_row=write_row,
                          progress=(lambda msg: click.echo(msg, err=True)) if sys.stderr.isatty() else None)
     finally:
         if sink is not None:

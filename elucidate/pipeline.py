@@ -22,6 +22,7 @@ from typing import Callable, Sequence
 from rdkit import Chem
 
 from .constraints.bundle import ConstraintSet, build_constraints
+from .constraints.correlations import C_TOLERANCE, H_TOLERANCE, CorrelationEvidence, link_correlations
 from .constraints.spectral import SymmetryAllowance
 from .errors import InputError
 from .formula import Formula, parse_formula
@@ -85,6 +86,9 @@ class SolveSettings:
     #: when an exhaustive search proves fewer structures than this, list near alternatives (0: never)
     near_alternatives: int = 5
     libraries: tuple[str, ...] = ()  # a lab's own reference libraries (SD or JSON lines), besides the shipped one
+    #: matching tolerances (ppm) tying 2D cross peaks to the 13C lines: 1H, 13C
+    match_1h: float = H_TOLERANCE
+    match_13c: float = C_TOLERANCE
 
     def __post_init__(self):
         if not (self.time_limit > 0):
@@ -101,6 +105,9 @@ class SolveSettings:
                 or self.near_alternatives < 0:
             raise InputError(f"--near-alternatives must be a whole number >= 0 (0: never list them), "
                              f"got {self.near_alternatives!r}")
+        for name, tol in (("--match-1h", self.match_1h), ("--match-13c", self.match_13c)):
+            if isinstance(tol, bool) or not isinstance(tol, (int, float)) or not 0 < tol < 50:
+                raise InputError(f"{name} must be a positive number of ppm (below 50), got {tol!r}")
         if not (isinstance(self.plausibility_weight, (int, float)) and 0 <= self.plausibility_weight < math.inf):
             raise InputError(f"plausibility_weight must be a number >= 0 (0 switches the plausibility cost "
                              f"off), got {self.plausibility_weight!r}")
@@ -131,6 +138,10 @@ class Candidate:
     #: "" when the structure meets every constraint; otherwise which stated assumption it needs set
     #: aside and what it would change (a near alternative, listed after every constrained candidate)
     set_aside: str = ""
+    #: one CorrelationCheck per 2D cross peak given (atoms renumbered to the SMILES order)
+    correlations: tuple = ()
+    #: the 2D-correlation part of ``fit_cost``
+    correlation_cost: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -164,6 +175,8 @@ class SolveResult:
     #: sampling rounds: (elapsed s, best energy, hits this round, rounds since gain, chains,
     #: chains ending at the best, calibrated chance of a better structure)
     search_trace: tuple[tuple, ...] = ()
+    #: the 2D cross peaks given, tied to the lines (empty without a correlation table)
+    correlations: tuple = ()
 
     @property
     def dbe(self) -> int:
@@ -232,6 +245,7 @@ def solve(
     settings: SolveSettings | None = None,
     *,
     progress: Callable[[str, int, float, float], None] | None = None,
+    correlations=None,
 ) -> SolveResult:
     """Propose structures for a formula and a 13C peak list.
 
@@ -246,6 +260,10 @@ def solve(
     settings : SolveSettings, optional
     progress : callable(stage, structures_scored, elapsed_s, seconds_left), optional
         Called now and then while the search runs (at most twice a second).
+    correlations : CorrelationTable, path or text, optional
+        2D cross peaks (HSQC, HMBC, H2BC, COSY; :mod:`elucidate.spectrum.correlations`),
+        tied to the lines within ``settings.match_1h``/``match_13c`` and
+        scored as evidence in every search (:mod:`elucidate.constraints.correlations`).
 
     Returns
     -------
@@ -257,6 +275,7 @@ def solve(
     if isinstance(formula, str):
         formula = parse_formula(formula)
     peaks = prepare_peaks(formula, peaks, settings.solvent)
+    evidence = _evidence(correlations, peaks, settings)
     start = time.monotonic()
     cons = _constraints(formula, peaks, settings)
     library = _library(settings)
@@ -267,7 +286,7 @@ def solve(
         charged_nitrogen=settings.charged_nitrogen, constraints=cons, prior=prior,
         time_limit=settings.time_limit, pool_size=_pool_size(settings), keep=settings.keep,
         workers=settings.workers, start=start, mode=settings.search, chains=settings.chains,
-        progress=progress, library=library,
+        progress=progress, library=library, evidence=evidence,
     )
     outcome = run_search(problem)
 
@@ -284,7 +303,7 @@ def solve(
     candidates = [replace(c, probability=listed * c.probability) for c in candidates]
     warnings = list(peaks.warnings)
     if len(candidates) < min(settings.near_alternatives, settings.top):
-        near = _near_alternatives(formula, peaks, settings, candidates, start)
+        near = _near_alternatives(formula, peaks, settings, candidates, start, evidence)
         if near:
             proven = "meet" if status == "complete" else "were found that meet"
             warnings.append(
@@ -320,14 +339,28 @@ def solve(
         completeness_note=completeness_sentence(status, cost_bound, formula.carbons, settings.time_limit),
         assumptions=tuple(_assumptions(cons, settings, peaks)),
         reference_neighbours=tuple(_neighbours(peaks, formula, settings, library)),
+        correlations=evidence.rows if evidence is not None else (),
     )
+
+
+def _evidence(correlations, peaks: PeakList, settings: SolveSettings) -> CorrelationEvidence | None:
+    """The 2D cross peaks tied to the observed lines, or None without any."""
+    if correlations is None:
+        return None
+    if isinstance(correlations, CorrelationEvidence):
+        return correlations
+    from .spectrum.correlations import CorrelationTable, read_correlations
+
+    table = correlations if isinstance(correlations, CorrelationTable) else read_correlations(correlations)
+    return link_correlations(table, peaks.peaks, h_tolerance=settings.match_1h, c_tolerance=settings.match_13c)
 
 
 _H_NAMES = ("C", "CH", "CH2", "CH3", "CH4")
 
 
 def _near_alternatives(formula: Formula, peaks: PeakList, settings: SolveSettings,
-                       listed: list[Candidate], start: float) -> list[Candidate]:
+                       listed: list[Candidate], start: float,
+                       evidence: CorrelationEvidence | None = None) -> list[Candidate]:
     """Structures that fit if one stated assumption is set aside, to fill a
     short list up to ``settings.near_alternatives``.
 
@@ -364,7 +397,7 @@ def _near_alternatives(formula: Formula, peaks: PeakList, settings: SolveSetting
         # bounded search: no annealing, so the lab's libraries (read only for its seeds) are not needed
         relaxed = replace(settings, environment_margin=margin, solvent=None, time_limit=left,
                           near_alternatives=0, neighbours=0, libraries=(), search="bounded")
-        result = solve(formula, step_peaks, relaxed)
+        result = solve(formula, step_peaks, relaxed, correlations=evidence)
         if result.completeness[0] != "complete":
             # only an exhaustive relaxed search gives the same alternatives on every run and machine
             break
@@ -475,6 +508,8 @@ def _finalise(ranked: Sequence[ScoredStructure], top: int, calibration: Calibrat
             for e in s.assignment.entries
         )
         predicted = tuple(sorted((pos[i], h, sh, sg) for i, h, sh, sg in s.predicted))
+        checks = tuple(replace(c, atoms=None if c.atoms is None else (pos[c.atoms[0]], pos[c.atoms[1]]))
+                       for c in s.checks)
         out.append(
             Candidate(
                 smiles=s.smiles,
@@ -491,6 +526,8 @@ def _finalise(ranked: Sequence[ScoredStructure], top: int, calibration: Calibrat
                 fit_cost=round(s.fit_cost, 4),
                 found_by=(sources or {}).get(s.smiles, ""),
                 plausibility=round(s.plausibility, 4),
+                correlations=checks,
+                correlation_cost=round(s.correlation, 4),
             )
         )
     return out

@@ -44,10 +44,14 @@ class ScoredStructure:
     predicted: tuple
     order: tuple[int, ...]
     plausibility: float = 0.0
+    #: 2D-correlation part of the raw score (counted in the fit, as data misfit)
+    correlation: float = 0.0
+    #: one :class:`~elucidate.constraints.correlations.CorrelationCheck` per cross peak
+    checks: tuple = ()
 
     @property
     def fit_cost(self) -> float:
-        """The assignment part of the raw score."""
+        """The data-misfit part of the raw score: line assignment plus 2D correlations."""
         return self.score - self.prior - self.plausibility
 
 
@@ -112,7 +116,7 @@ def smiles_order(mol: Chem.Mol, smiles_written: bool) -> tuple[int, ...]:
 
 def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
                     prior: Callable[[Chem.Mol], float] | None,
-                    smiles_written: bool = True) -> ScoredStructure | None:
+                    smiles_written: bool = True, evidence=None) -> ScoredStructure | None:
     """Raw score of one structure, or None when its carbons cannot be placed
     under the lines at all (e.g. no line of a carbon's multiplicity).
 
@@ -128,6 +132,9 @@ def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
         callable counts as rarity.
     smiles_written : bool
         See :func:`smiles_order`.
+    evidence : CorrelationEvidence, optional
+        2D cross peaks (:mod:`elucidate.constraints.correlations`), checked
+        under the line assignment; their cost is added to the fit.
     """
     assignment, predicted = rank_structure(mol, peaks)
     if math.isinf(assignment.cost):
@@ -136,5 +143,6 @@ def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
         p, q = prior.terms(mol)
     else:
         p, q = (prior(mol) if prior is not None else 0.0), 0.0
-    return ScoredStructure(assignment.cost + p + q, smiles, assignment, p, predicted,
-                           smiles_order(mol, smiles_written), q)
+    c, checks = evidence.check(mol, assignment.entries) if evidence is not None and len(evidence) else (0.0, ())
+    return ScoredStructure(assignment.cost + c + p + q, smiles, assignment, p, predicted,
+                           smiles_order(mol, smiles_written), q, c, checks)

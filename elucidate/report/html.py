@@ -112,8 +112,13 @@ def check_result_data(data: Any) -> dict:
 
 
 # ----------------------------------------------------------------- depiction
+#: Colours of the drawn 2D correlations by status (Okabe-Ito: bluish green,
+#: orange, vermillion), and their dash patterns, so they read apart without colour too.
+_ARROW_STYLE = {"satisfied": ("#009E73", ""), "long range": ("#E69F00", "5,3"), "violated": ("#D55E00", "2,3")}
+
+
 def depiction_svg(smiles: str, *, width: int = 340, height: int = 260, numbered: bool = True,
-                  css_class: str = "structure") -> str:
+                  css_class: str = "structure", arrows=()) -> str:
     """2D depiction of ``smiles`` as an inline SVG, with carbon numbers by default.
 
     Coordinates from RDKit's ``Compute2DCoords`` (deterministic); each carbon
@@ -128,6 +133,11 @@ def depiction_svg(smiles: str, *, width: int = 340, height: int = 260, numbered:
         Write the carbon numbers (off for the small pictures of the ranked table).
     css_class : str
         Class of the ``<svg>`` element (``structure``; ``thumb`` in the ranked table).
+    arrows : sequence of (atom, atom, status)
+        2D correlations drawn as curved arrows from the carbon carrying the
+        proton to the correlated carbon (atom indices in the SMILES order;
+        status ``satisfied``, ``long range`` or ``violated`` sets colour
+        and dashes).
 
     Returns
     -------
@@ -157,9 +167,13 @@ def depiction_svg(smiles: str, *, width: int = 340, height: int = 260, numbered:
     opts.atomNoteColour = (0.0, 0.447, 0.698)  # Okabe-Ito blue: numbers read apart from element labels
     opts.clearBackground = False
     drawer.DrawMolecule(mol)
+    ends = [(drawer.GetDrawCoords(int(a)), drawer.GetDrawCoords(int(b)), st) for a, b, st in arrows
+            if 0 <= int(a) < mol.GetNumAtoms() and 0 <= int(b) < mol.GetNumAtoms() and a != b]
     drawer.FinishDrawing()
     svg = drawer.GetDrawingText()
     svg = re.sub(r"<\?xml[^>]*\?>\s*", "", svg)
+    if ends:
+        svg = svg.replace("</svg>", _arrow_paths(ends) + "</svg>")
     # Accessible name for screen readers; the class lets the print CSS size it.
     label = f"2D structure of {smiles}" + (" with carbon numbers" if numbered else "")
     svg = svg.replace(
@@ -172,6 +186,27 @@ def depiction_svg(smiles: str, *, width: int = 340, height: int = 260, numbered:
 
 
 # ----------------------------------------------------------------- stick spectrum
+def _arrow_paths(ends) -> str:
+    """SVG curves (bowed to one side, with an arrow head) for drawn correlations."""
+    out = ['<defs>']
+    for k, (colour, _dash) in enumerate(_ARROW_STYLE.values()):
+        out.append(f'<marker id="corr-head-{k}" viewBox="0 0 6 6" refX="5" refY="3" markerWidth="5" '
+                   f'markerHeight="5" orient="auto"><path d="M0,0 L6,3 L0,6 z" fill="{colour}"/></marker>')
+    out.append('</defs><g class="correlations" fill="none" stroke-width="1.6" opacity="0.85">')
+    keys = list(_ARROW_STYLE)
+    for p, q, status in ends:
+        colour, dash = _ARROW_STYLE.get(status, _ARROW_STYLE["violated"])
+        k = keys.index(status) if status in keys else keys.index("violated")
+        mx, my = (p.x + q.x) / 2, (p.y + q.y) / 2
+        dx, dy = q.x - p.x, q.y - p.y
+        cx, cy = mx - 0.25 * dy, my + 0.25 * dx  # bow the curve to the left of its direction
+        dash_attr = f' stroke-dasharray="{dash}"' if dash else ""
+        out.append(f'<path d="M{p.x:.1f},{p.y:.1f} Q{cx:.1f},{cy:.1f} {q.x:.1f},{q.y:.1f}" stroke="{colour}"'
+                   f'{dash_attr} marker-end="url(#corr-head-{k})"><title>{html.escape(status)}</title></path>')
+    out.append('</g>')
+    return "".join(out)
+
+
 def _nice_step(span: float) -> float:
     raw = span / 8.0
     mag = 10 ** math.floor(math.log10(raw))
@@ -702,6 +737,27 @@ def _summary(cands: list[dict], unlisted) -> str:
     return table + key
 
 
+def _next_measurements(data: dict) -> str:
+    """Table of the measurements that would best separate the top candidates."""
+    rows = data.get("next_measurements") or []
+    if not rows:
+        return ""
+    body = []
+    for r in rows:
+        if r["experiment"] in ("HMBC", "COSY"):
+            outcome = (f"expected in rank {', '.join(map(str, r['expected_in']))}; "
+                       f"not in rank {', '.join(map(str, r['not_in']))}")
+        else:
+            outcome = "; ".join(f"rank {k + 1}: {v}" for k, v in enumerate(r.get("by_rank") or []))
+        body.append([_e(r["experiment"]), _e(" / ".join(str(x) for x in r["lines"])),
+                     _e(" / ".join(f"{x:g}" for x in r["shifts"])), _e(outcome), _f(r["value"], 3)])
+    return ("<h3>What to measure next</h3>"
+            + _table(["experiment", "lines", "13C / ppm", "outcome by candidate", "separates"], body, {4},
+                     "Measurements whose expected outcome differs among the top candidates, best first "
+                     "(separates: the probability that two candidates drawn by their probabilities are told "
+                     "apart)"))
+
+
 def _candidate(c: dict, peaks: list[dict]) -> str:
     rank = _e(c.get("rank"))
     assignment = c.get("assignment") or []
@@ -717,10 +773,16 @@ def _candidate(c: dict, peaks: list[dict]) -> str:
     notes = _notes(c)
     if notes:
         out.append(f'<p class="status-cut">Note: {_e(notes)}.</p>')
+    checks = c.get("correlations") or []
+    drawn = [(ch["atoms"][0], ch["atoms"][1], ch["status"]) for ch in checks
+             if ch.get("experiment") == "HMBC" and ch.get("atoms")]
     out.append('<div class="figs"><figure>')
-    out.append(depiction_svg(c["smiles"]))
-    out.append("<figcaption>Structure; carbons numbered by their position in the SMILES.</figcaption>"
-               "</figure><figure>")
+    out.append(depiction_svg(c["smiles"], arrows=drawn))
+    caption = "Structure; carbons numbered by their position in the SMILES."
+    if drawn:
+        caption += (" Curved arrows: HMBC, from the carbon carrying the proton to the correlated carbon; "
+                    "solid green met (2-3 bonds), dashed orange long range (4 bonds), dotted red not met.")
+    out.append(f"<figcaption>{caption}</figcaption></figure><figure>")
     out.append(stick_spectrum_svg(peaks, assignment, title=f"candidate {c.get('rank')}: observed and "
                                   "predicted 13C lines"))
     out.append('<figcaption class="legend"><span class="key-obs">&#9650; observed lines (numbers = line)</span>'
@@ -729,6 +791,15 @@ def _candidate(c: dict, peaks: list[dict]) -> str:
     rows = _assignment_rows(assignment, peaks, c.get("unfilled_lines") or [])
     out.append(_table(["line", "observed / ppm", "predicted / ppm", "diff / ppm", "carbons", "note"], rows,
                       {0, 1, 2, 3}, f"Assignment of the observed lines to the carbons of candidate {rank}"))
+    if checks:
+        rows = [[_e(ch["row"]), _e(ch["experiment"]), _f(ch["h_shift"]), _f(ch["other_shift"]),
+                 _e(ch["status"]), "no path" if ch["bonds"] is None else _e(ch["bonds"]),
+                 "" if not ch.get("atoms") else f"C{ch['atoms'][0] + 1} / C{ch['atoms'][1] + 1}"
+                 if ch["experiment"] != "HSQC" else f"C{ch['atoms'][0] + 1}"]
+                for ch in checks]
+        out.append(_table(["row", "experiment", "1H / ppm", "13C or 1H / ppm", "status", "bonds", "carbons"],
+                          rows, {0, 2, 3, 5}, f"2D correlations checked on candidate {rank} (bonds: proton to "
+                          "carbon; COSY proton to proton)"))
     preds = c.get("predicted_shifts") or []
     if preds:
         rows = [[f"C{p['atom'] + 1}", _e(p.get("hydrogens")), _f(p.get("shift")), _f(p.get("sigma"))]
@@ -995,6 +1066,7 @@ def render_html(data: dict, *, top: int | None = None, title: str | None = None,
         _sample(data),
         "<h2>Ranked candidates</h2>",
         (_summary(cands, data.get("unlisted_probability")) if cands else _empty(data)),
+        _next_measurements(data),
         _neighbours(data),
         "<h2>Inputs</h2>",
         _inputs(data),

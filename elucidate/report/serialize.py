@@ -21,6 +21,7 @@ import math
 from ..errors import InputError
 from ..pipeline import CAUTION, SolveResult
 from ..rank.ambiguity import ambiguity_notes, multiplicity_notes
+from ..rank.next_measurement import next_measurement_sentence, next_measurements
 from ..spectrum.trace import SpectrumTrace
 from ..search.statement import fit_equivalent
 from .runinfo import RunInfo
@@ -43,6 +44,13 @@ def _completeness(result: SolveResult) -> dict:
         one, each = fit_equivalent(bound, result.formula.carbons)
         out["bound_as_misfit"] = {"one_carbon_ppm": _num(one, 1), "every_carbon_ppm": _num(each, 2)}
     return out
+
+
+def _check_record(k: int, check) -> dict:
+    """One cross peak's check for one candidate (atoms in the SMILES order)."""
+    return {"row": k + 1, "experiment": check.row.experiment, "h_shift": check.row.h_shift,
+            "other_shift": check.row.other, "status": check.status, "bonds": check.bonds,
+            "cost": _num(check.cost, 2), "atoms": list(check.atoms) if check.atoms is not None else None}
 
 
 def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
@@ -102,7 +110,15 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
             "max_ring_size": s.max_ring_size,
             "symmetry_overlap": s.symmetry.overlap,
             "symmetry_split": s.symmetry.split,
+            "match_1h": s.match_1h,
+            "match_13c": s.match_13c,
         },
+        "correlations": [
+            {"row": k + 1, "line": link.row.line, "experiment": link.row.experiment,
+             "h_shift": link.row.h_shift, "other_shift": link.row.other,
+             "h_lines": [i + 1 for i in link.h_lines], "c_lines": [i + 1 for i in link.c_lines]}
+            for k, link in enumerate(result.correlations)
+        ],
         "constraint_log": [
             {"constraint": name, "before": before, "after": after}
             for name, before, after in result.constraint_log
@@ -122,6 +138,8 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
                 "unfilled_lines": list(c.unfilled),
                 "found_by": c.found_by,
                 "set_aside": c.set_aside,
+                "correlation_cost": _num(c.correlation_cost, 4),
+                "correlations": [_check_record(k, ch) for k, ch in enumerate(c.correlations)],
                 "assignment": [
                     {
                         "peak_index": e.peak_index,
@@ -142,10 +160,14 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
         "ambiguity": ambiguity_notes(result.candidates),
         # without multiplicities: the lines whose multiplicity differs among the top 5 (null with them)
         "multiplicities": multiplicity_notes(result.peaks.peaks, result.candidates),
+        # measurements whose expected outcome differs among the top candidates, best first
+        "next_measurements": next_measurements(result.peaks.peaks, list(result.candidates),
+                                               given=result.correlations),
         "reference_neighbours": [dict(n) for n in result.reference_neighbours],
         "caution": CAUTION,
         "peaks_provenance": list(result.peaks.provenance),
     }
+    data["next_measurement_statement"] = next_measurement_sentence(data["next_measurements"])
     if result.peaks.observe_mhz:
         data["observe_mhz"] = result.peaks.observe_mhz
     if spectrum is not None:

@@ -63,6 +63,12 @@ def render_text(data: dict) -> str:
                 notes.append("found by sampling")
             if c.get("set_aside"):
                 notes.append("near alternative, not rated: " + c["set_aside"])
+            checks = c.get("correlations") or []
+            if checks:
+                unmet = sum(1 for ch in checks if ch["status"] == "violated")
+                far = sum(1 for ch in checks if ch["status"] == "long range")
+                notes.append(f"2D {len(checks) - unmet - far}/{len(checks)} met"
+                             + (f", {far} long range" if far else "") + (f", {unmet} not met" if unmet else ""))
             out.append(
                 f"{c['rank']:>4}  {c['smiles']:<{width}}  {c['probability']:>6.3f}  "
                 f"{_f(c['mae_ppm'])}  {_f(c['max_error_ppm'])}  {', '.join(notes)}"
@@ -78,6 +84,14 @@ def render_text(data: dict) -> str:
                 f"  {e['peak_index'] + 1:>4}  {e['observed']:>8.2f}  {e['predicted']:>9.2f}  "
                 f"{diff:>+6.2f}  {','.join(str(a) for a in e['atoms'])}{kind}"
             )
+        if best.get("correlations"):
+            out.append("")
+            out.append(f"2D correlations of rank 1 (bonds: proton to carbon; COSY proton to proton):")
+            for ch in best["correlations"]:
+                bonds = "no path" if ch["bonds"] is None else f"{ch['bonds']} bonds"
+                ends = "" if ch["atoms"] is None else f"  atoms {ch['atoms'][0]},{ch['atoms'][1]}"
+                out.append(f"  {ch['experiment']:<5} {ch['h_shift']:>6.2f} / {ch['other_shift']:<7.2f} "
+                           f"{ch['status']:<10} {bonds}{ends}")
         for note in data.get("ambiguity") or []:
             out.append("")
             out.append(
@@ -89,6 +103,9 @@ def render_text(data: dict) -> str:
                     f"  line {row['peak_index'] + 1} at {row['observed']:.1f} ppm: predicted "
                     f"{row['predicted_best']:.1f} (rank 1) vs {row['predicted_other']:.1f} (rank {note['rank']})"
                 )
+        if data.get("next_measurement_statement"):
+            out.append("")
+            out.append(data["next_measurement_statement"])
         mult = data.get("multiplicities")
         if mult and mult.get("statement"):
             out.append("")

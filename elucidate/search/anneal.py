@@ -171,8 +171,9 @@ class Evaluator:
     """
 
     def __init__(self, peaks, constraints, prior, fit_weight: float, prior_weight: float,
-                 memory: int = 200_000, plausibility_weight: float | None = None):
+                 memory: int = 200_000, plausibility_weight: float | None = None, evidence=None):
         self.peaks = peaks
+        self.evidence = evidence
         self.cons = constraints
         self.prior = prior
         self.fit_weight = fit_weight
@@ -210,7 +211,8 @@ class Evaluator:
         mol = Chem.MolFromSmiles(smiles)  # canonical atom order: results do not depend on the path
         if mol is None:
             return _Eval(math.inf, smiles, False, None)
-        scored = score_structure(smiles, mol, self.peaks, self.prior, smiles_written=False)
+        scored = score_structure(smiles, mol, self.peaks, self.prior, smiles_written=False,
+                                 evidence=self.evidence)
         if scored is None:
             return _Eval(math.inf, smiles, False, None)
         broken = sum(0 if f.keep(mol) else 1 for f in self.cons.filters)
@@ -221,6 +223,10 @@ class Evaluator:
             z = min(abs(e.error) / max(e.sigma, 0.5), 6.0)
             for a in e.atoms:
                 misfit[a] = max(misfit[a], z)
+        for check in scored.checks:  # moves start more often where a 2D correlation is not met
+            if check.cost > 0 and check.atoms is not None:
+                for a in check.atoms:
+                    misfit[a] = max(misfit[a], 3.0 if check.status == "violated" else 1.5)
         energy = self.energy_of(scored) + VIOLATION_COST * broken
         return _Eval(energy, smiles, broken == 0, scored if broken == 0 else None, tuple(misfit))
 

@@ -67,6 +67,8 @@ class SearchProblem:
 
     #: reference library for neighbour starts (None: the shipped index)
     library: object = None
+    #: 2D correlations checked in every full score (None: none given)
+    evidence: object = None
 
     @property
     def sampling(self) -> bool:
@@ -84,7 +86,7 @@ class SearchProblem:
         return self.constraints.rule is not None and self.pool_size > 0
 
     def score(self, smiles: str, mol: Chem.Mol, smiles_written: bool = True) -> ScoredStructure | None:
-        return score_structure(smiles, mol, self.peaks, self.prior, smiles_written)
+        return score_structure(smiles, mol, self.peaks, self.prior, smiles_written, self.evidence)
 
     def report(self, stage: str, scored: int, force: bool = False) -> None:
         """Tell the progress callback (at most twice a second)."""

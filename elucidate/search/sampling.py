@@ -90,7 +90,7 @@ def _evaluator(state, local) -> Evaluator:
     ev = local.get("evaluator")
     if ev is None or local.get("owner") is not state:
         problem = state.problem
-        ev = Evaluator(problem.peaks, state.cons, problem.prior, *state.weights)
+        ev = Evaluator(problem.peaks, state.cons, problem.prior, *state.weights, evidence=problem.evidence)
         local["evaluator"] = ev
         local["owner"] = state
     return ev
