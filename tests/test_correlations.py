@@ -270,3 +270,28 @@ def test_next_measurement_separates_two_invented_isomers_by_an_hmbc_pair():
     given = link_correlations(parse_correlations("HSQC 1.2 14.0\nHMBC 1.2 170.0"), peaks).rows
     assert not [r for r in next_measurements(peaks, [a, b], given=given) if r["experiment"] == "HMBC"]
     assert next_measurements(peaks, [a]) == []
+
+
+def test_close_lines_are_swapped_when_the_correlations_say_so():
+    # guaiacol part of an invented unknown: the two aromatic C-O carbons are 1.1 ppm apart and
+    # their predictions favour the wrong lines by a little; the OMe proton's HMBC row to
+    # 146.8 ppm is 3 bonds only if the OMe-bearing carbon stands under that line (graph
+    # distances by RDKit)
+    from elucidate.rank.assignment import Assignment, LineEntry
+    from elucidate.rank.likelihood import shift_cost
+
+    mol = Chem.MolFromSmiles("COc1ccccc1O")  # 0 CH3, 2 C-OMe, 7 C-OH
+    peaks = parse_peaks("147.9 C, 146.8 C, 55.9 CH3").peaks
+    entries = (LineEntry(0, 147.9, 147.5, 1.0, (2,), "primary"), LineEntry(1, 146.8, 147.0, 1.0, (7,), "primary"),
+               LineEntry(2, 55.9, 56.0, 1.0, (0,), "primary"))
+    cost = sum(shift_cost(e.observed, e.predicted, e.sigma) for e in entries)
+    evidence = link_correlations(parse_correlations("HSQC 3.90 55.9\nHMBC 3.90 146.8"), peaks)
+    before, checks = evidence.check(mol, entries)
+    assert before == LONG_RANGE_COST and checks[1].bonds == 4
+    better, after, checks = evidence.assign(mol, Assignment(entries, cost, 0, 0, ()), peaks)
+    assert after == 0 and checks[1].bonds == 3
+    assert {e.peak_index: e.atoms for e in better.entries}[1] == (2,)
+    swapped = (shift_cost(146.8, 147.5, 1.0) + shift_cost(147.9, 147.0, 1.0))
+    kept = shift_cost(55.9, 56.0, 1.0)
+    assert better.cost == pytest.approx(swapped + kept)
+    assert better.cost - cost < LONG_RANGE_COST  # the swap pays off

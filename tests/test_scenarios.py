@@ -63,6 +63,8 @@ def test_large_scenario_puts_the_confirmed_structure_first(folder):
     meta = json.loads((folder / "scenario.json").read_text())
     args = ["solve", "--formula", meta["formula"], "--peaks", str(folder / meta["peaks"]),
             "--format", "json", "--solvent", meta["solvent"], "--time-limit", "60"]
+    if meta.get("correlations"):  # 2D cross peaks (HSQC/HMBC) recorded with the 13C spectrum
+        args += ["--correlations", str(folder / meta["correlations"])]
     result = CliRunner().invoke(main, args)
     assert result.exit_code == 0, result.stderr
     data = json.loads(result.stdout)

@@ -143,6 +143,9 @@ def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
         p, q = prior.terms(mol)
     else:
         p, q = (prior(mol) if prior is not None else 0.0), 0.0
-    c, checks = evidence.check(mol, assignment.entries) if evidence is not None and len(evidence) else (0.0, ())
+    c, checks = 0.0, ()
+    if evidence is not None and len(evidence):
+        # the line assignment improved jointly with the 2D evidence (swaps of close lines)
+        assignment, c, checks = evidence.assign(mol, assignment, peaks)
     return ScoredStructure(assignment.cost + c + p + q, smiles, assignment, p, predicted,
                            smiles_order(mol, smiles_written), q, c, checks)
