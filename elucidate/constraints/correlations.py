@@ -38,8 +38,9 @@ Two lines of close shift are easily swapped by the shift assignment alone
 (e.g. two aromatic C-O carbons 1 ppm apart); :meth:`CorrelationEvidence.assign`
 therefore improves the assignment jointly: it swaps the lines of two
 compatible carbon classes when the correlations gain more than the shift
-likelihood loses (best swap first, at most :data:`MAX_SWAPS`, only swaps
-touching a line of an unmet row), a local search on the sum of both costs.
+likelihood loses (best swap first, at most :data:`MAX_SWAPS`, each costing
+the shifts less than :data:`MAX_SWAP_COST`, only swaps touching a line of an
+unmet row), a local search on the sum of both costs.
 
 The costs are negative log-likelihood ratios on the scale of the shift
 misfit (nats), added to the assignment cost: a long-range row is taken to
@@ -76,6 +77,9 @@ LONG_RANGE_COST = 2.0
 VIOLATION_COST = 6.0
 #: Line swaps tried in turn to meet more rows (see :meth:`CorrelationEvidence.assign`).
 MAX_SWAPS = 3
+#: Largest shift-cost increase of one swap: only lines whose predictions fit
+#: nearly as well either way are swapped (a larger misfit is no accident of close lines).
+MAX_SWAP_COST = 2.5
 
 
 @dataclass(frozen=True)
@@ -218,46 +222,61 @@ class CorrelationEvidence:
         more than the shifts lose (module docstring); the returned
         assignment's cost includes the shift cost of the swaps."""
         entries = list(assignment.entries)
-        cost, checks = self.check(mol, entries)
+        dist, hs = Chem.GetDistanceMatrix(mol), [a.GetTotalNumHs() for a in mol.GetAtoms()]
+        on_line = _on_line(entries)
+        checks = [_check_row(link, on_line, dist, hs) for link in self.rows]
+        cost = sum(c.cost for c in checks)
         if cost <= 0 or len(entries) < 2:
-            return assignment, cost, checks
-        hs = [a.GetTotalNumHs() for a in mol.GetAtoms()]
+            return assignment, cost, tuple(checks)
+        touching: dict[int, list[int]] = {}
+        for k, link in enumerate(self.rows):
+            for i in set(link.h_lines) | set(link.c_lines):
+                touching.setdefault(i, []).append(k)
         extra = 0.0
         for _ in range(MAX_SWAPS):
-            unmet = set()
-            for link, chk in zip(self.rows, checks):
-                if chk.cost > 0:
-                    unmet.update(link.h_lines)
-                    unmet.update(link.c_lines)
+            stake = {i: sum(checks[k].cost for k in ks) for i, ks in touching.items()}
             best = None
             for i, e in enumerate(entries):
-                for j in range(i + 1, len(entries)):
-                    f = entries[j]
-                    if e.peak_index == f.peak_index or (e.peak_index not in unmet and f.peak_index not in unmet):
-                        continue
-                    he, hf = peaks[e.peak_index].hydrogens, peaks[f.peak_index].hydrogens
-                    if (hf is not None and hf != hs[e.atoms[0]]) or (he is not None and he != hs[f.atoms[0]]):
+                a = e.peak_index
+                if stake.get(a, 0.0) <= 0:
+                    continue  # a swap must move a carbon of a line with an unmet row
+                for j, f in enumerate(entries):
+                    b = f.peak_index
+                    if a == b or (stake.get(b, 0.0) > 0 and j < i):
+                        continue  # pairs of two unmet lines are tried once
+                    ha, hb = peaks[a].hydrogens, peaks[b].hydrogens
+                    if (hb is not None and hb != hs[e.atoms[0]]) or (ha is not None and ha != hs[f.atoms[0]]):
                         continue
                     delta = (shift_cost(f.observed, e.predicted, e.sigma) + shift_cost(e.observed, f.predicted, f.sigma)
                              - shift_cost(e.observed, e.predicted, e.sigma)
                              - shift_cost(f.observed, f.predicted, f.sigma))
-                    if delta >= cost:
-                        continue  # cannot pay off
-                    trial = list(entries)
-                    trial[i] = replace(e, peak_index=f.peak_index, observed=f.observed)
-                    trial[j] = replace(f, peak_index=e.peak_index, observed=e.observed)
-                    c, ch = self.check(mol, trial)
-                    gain = cost - c - delta
+                    if delta >= MAX_SWAP_COST or delta >= stake[a] + stake.get(b, 0.0):
+                        continue  # not close lines, or cannot pay off: only the rows touching the two lines change
+                    rows = sorted(set(touching.get(a, ())) | set(touching.get(b, ())))
+                    at_stake = sum(checks[k].cost for k in rows)
+                    if delta >= at_stake:
+                        continue
+                    trial_line = dict(on_line)
+                    trial_line[a] = [x for x in on_line[a] if x not in e.atoms] + list(f.atoms)
+                    trial_line[b] = [x for x in on_line[b] if x not in f.atoms] + list(e.atoms)
+                    new = {k: _check_row(self.rows[k], trial_line, dist, hs) for k in rows}
+                    gain = at_stake - sum(c.cost for c in new.values()) - delta
                     if gain > 1e-9 and (best is None or gain > best[0] + 1e-12):
-                        best = (gain, trial, c, ch, delta)
+                        best = (gain, i, j, new, delta, trial_line)
             if best is None:
                 break
-            _gain, entries, cost, checks, delta = best
+            _gain, i, j, new, delta, on_line = best
+            e, f = entries[i], entries[j]
+            entries[i] = replace(e, peak_index=f.peak_index, observed=f.observed)
+            entries[j] = replace(f, peak_index=e.peak_index, observed=e.observed)
+            for k, c in new.items():
+                checks[k] = c
+            cost = sum(c.cost for c in checks)
             extra += delta
         if extra == 0.0 and list(assignment.entries) == entries:
-            return assignment, cost, checks
+            return assignment, cost, tuple(checks)
         entries.sort(key=lambda e: (e.peak_index, e.atoms))
-        return replace(assignment, entries=tuple(entries), cost=assignment.cost + extra), cost, checks
+        return replace(assignment, entries=tuple(entries), cost=assignment.cost + extra), cost, tuple(checks)
 
     def check(self, mol: Chem.Mol, entries) -> tuple[float, tuple[CorrelationCheck, ...]]:
         """(total cost, one check per row) of a structure under a line assignment.
@@ -265,28 +284,33 @@ class CorrelationEvidence:
         ``entries``: the assignment's line entries (``peak_index``, ``atoms``
         in ``mol``'s numbering).
         """
-        on_line: dict[int, list[int]] = {}
-        for e in entries:
-            on_line.setdefault(e.peak_index, []).extend(e.atoms)
-        dist = Chem.GetDistanceMatrix(mol)
-        hs = [a.GetTotalNumHs() for a in mol.GetAtoms()]
-        total = 0.0
-        out = []
-        for link in self.rows:
-            exp = link.row.experiment
-            carriers = [a for i in link.h_lines for a in on_line.get(i, ()) if hs[a] > 0]
-            if exp == "HSQC":
-                best = (1, carriers[0], carriers[0]) if carriers else None
-            else:
-                targets = [a for i in link.c_lines for a in on_line.get(i, ())]
-                if exp == "COSY":
-                    targets = [a for a in targets if hs[a] > 0]
-                best = _best_path(exp, carriers, targets, dist, hs)
-            status, cost = _status(exp, None if best is None else best[0])
-            total += cost
-            out.append(CorrelationCheck(link.row, status, None if best is None else best[0], cost,
-                                        None if best is None else (best[1], best[2])))
-        return total, tuple(out)
+        dist, hs = Chem.GetDistanceMatrix(mol), [a.GetTotalNumHs() for a in mol.GetAtoms()]
+        on_line = _on_line(entries)
+        checks = tuple(_check_row(link, on_line, dist, hs) for link in self.rows)
+        return sum(c.cost for c in checks), checks
+
+
+def _on_line(entries) -> dict[int, list[int]]:
+    on_line: dict[int, list[int]] = {}
+    for e in entries:
+        on_line.setdefault(e.peak_index, []).extend(e.atoms)
+    return on_line
+
+
+def _check_row(link: LinkedCorrelation, on_line: dict, dist, hs) -> CorrelationCheck:
+    """One cross peak against the carbons under its lines."""
+    exp = link.row.experiment
+    carriers = [a for i in link.h_lines for a in on_line.get(i, ()) if hs[a] > 0]
+    if exp == "HSQC":
+        best = (1, carriers[0], carriers[0]) if carriers else None
+    else:
+        targets = [a for i in link.c_lines for a in on_line.get(i, ())]
+        if exp == "COSY":
+            targets = [a for a in targets if hs[a] > 0]
+        best = _best_path(exp, carriers, targets, dist, hs)
+    status, cost = _status(exp, None if best is None else best[0])
+    return CorrelationCheck(link.row, status, None if best is None else best[0], cost,
+                            None if best is None else (best[1], best[2]))
 
 
 def _best_path(exp: str, carriers, targets, dist, hs) -> tuple[int, int, int] | None:
