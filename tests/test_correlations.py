@@ -295,3 +295,20 @@ def test_close_lines_are_swapped_when_the_correlations_say_so():
     kept = shift_cost(55.9, 56.0, 1.0)
     assert better.cost == pytest.approx(swapped + kept)
     assert better.cost - cost < LONG_RANGE_COST  # the swap pays off
+
+
+def test_next_measurement_separates_two_regioisomers_by_the_methyl_hmbc():
+    # invented lines under 2-methylanisole (rank 1) and 3-methylanisole (rank 2), one carbon per
+    # line in both: the methyl protons are 3 bonds from the C-O carbon in the ortho isomer and
+    # 4 in the meta isomer (graph distances by RDKit)
+    from elucidate.rank.next_measurement import next_measurements
+
+    peaks = parse_peaks("158.0 C, 135.0 C, 130.0 CH, 127.0 CH, 121.0 CH, 111.0 CH, 55.0 CH3, 20.0 CH3").peaks
+    hydrogens = (0, 0, 1, 1, 1, 1, 3, 3)
+    ortho = _candidate("COc1ccccc1C", (2, 7, 3, 4, 5, 6, 0, 8), hydrogens, 0.5)
+    meta = _candidate("COc1cccc(C)c1", (2, 6, 3, 4, 5, 8, 0, 7), hydrogens, 0.5)
+    rows = next_measurements(peaks, [ortho, meta], limit=50)
+    assert rows[0]["experiment"] == "HMBC"
+    methyl = [r for r in rows if r["experiment"] == "HMBC" and r["lines"] == [8, 1]]
+    assert methyl and (methyl[0]["expected_in"], methyl[0]["not_in"]) == ([1], [2])
+    assert all(r["value"] <= rows[0]["value"] for r in rows)
