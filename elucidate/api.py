@@ -27,7 +27,7 @@ __all__ = ["solve", "check", "predict", "to_dict"]
 _SOLVE_OPTIONS = (
     "charged_nitrogen", "allow_all", "max_rings", "min_ring_size", "max_ring_size",
     "environment_margin", "keep", "search", "chains", "libraries", "neighbours", "workers",
-    "near_alternatives",
+    "near_alternatives", "match_1h", "match_13c",
 )
 
 
@@ -70,7 +70,7 @@ def _checked_solvent(solvent):
 
 def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.0, top: int = 10,
           require=(), forbid=(), scaffold: str | None = None, valences: dict | None = None,
-          progress=None, **options):
+          progress=None, correlations=None, **options):
     """Rank structures for a molecular formula and a 13C peak list.
 
     Parameters
@@ -96,6 +96,10 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
         Allowed valences per element, e.g. ``{"S": (2, 4, 6)}`` (others keep the default).
     progress : callable(stage, structures_scored, elapsed_s, seconds_left), optional
         Called now and then while the search runs.
+    correlations : str, path or CorrelationTable, optional
+        2D cross peaks (HSQC, HMBC, H2BC, COSY; one per line: experiment, 1H
+        shift, 13C or second 1H shift), scored as evidence (docs/correlations.md);
+        tolerances with the options ``match_1h`` and ``match_13c``.
     **options
         Further :class:`~elucidate.pipeline.SolveSettings` fields:
         ``charged_nitrogen``, ``allow_all``, ``max_rings``, ``min_ring_size``,
@@ -104,7 +108,8 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
         work budget), ``libraries`` (paths of the lab's own reference
         libraries), ``neighbours`` (reference spectra listed), ``workers``,
         ``near_alternatives`` (fill a short exhaustive list up to this many with structures that
-        need one stated assumption set aside; 0: never).
+        need one stated assumption set aside; 0: never), ``match_1h`` and ``match_13c``
+        (tolerances in ppm tying 2D cross peaks to the lines).
 
     Returns
     -------
@@ -141,7 +146,7 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
         time_limit=float(time_limit), top=top, keep=max(options.pop("keep", 100), top),
         **{k: (tuple(v) if k == "libraries" and not isinstance(v, str) else (v,) if k == "libraries" else v)
            for k, v in options.items()})
-    return run(formula, peaks, settings, progress=progress)
+    return run(formula, peaks, settings, progress=progress, correlations=correlations)
 
 
 def check(smiles, peaks, *, formula=None, solvent: str | None = None, time_limit: float = 30.0,
