@@ -142,14 +142,33 @@ def main():
               help="Keep the score weights and the cost-bounded listed-answer model of the shipped calibration "
                    "(the ones the runs were made with) and fit only listed_when_complete, the sampled "
                    "listed-answer model and the early-stop model (how the 2026-12-03 file was made; DEVELOPERS.md).")
-def fit(rows, out, time_limit, sampling_only):
+@click.option("--keep-weights", is_flag=True,
+              help="Keep the three score weights of the shipped calibration (the runs were ranked with them) and "
+                   "fit every listed-answer model and the early-stop model on these runs (runs made after "
+                   "`heldout-start`, which turns both early stops off).")
+def fit(rows, out, time_limit, sampling_only, keep_weights):
     """Fit weights and the listed-answer model on held-out bench rows."""
     import dataclasses
 
+    if sampling_only and keep_weights:
+        raise click.UsageError("--sampling-only and --keep-weights exclude each other; give one")
     data = [r for r in _rows(rows) if r.get("fit_terms")]
     if not data:
         raise click.UsageError("no row carries fit_terms; run `elucidate bench ... -o ROWS` with this version")
     cal = _fit(data, time_limit)
+    if keep_weights:
+        kept = load_calibration()
+        provenance = dict(cal.provenance)
+        provenance["method"] = (
+            f"score weights kept from the fit of {kept.provenance.get('weights_fitted') or kept.provenance.get('fitted')} "
+            "(the held-out runs were ranked with them; refit gave "
+            f"{cal.fit_weight} / {cal.prior_weight} / plausibility {cal.plausibility_weight}); "
+            "listed_when_complete, the cost-bounded and the sampled listed-answer models and the early-stop model "
+            "fitted on these runs, made with both early stops off (logistic models, rank/calibration.py)")
+        provenance["plausibility_weight"] = f"kept ({kept.plausibility_weight}; refit gave {cal.plausibility_weight})"
+        provenance["weights_fitted"] = kept.provenance.get("weights_fitted") or kept.provenance.get("fitted")
+        cal = dataclasses.replace(cal, fit_weight=kept.fit_weight, prior_weight=kept.prior_weight,
+                                  plausibility_weight=kept.plausibility_weight, provenance=provenance)
     if sampling_only:
         kept = load_calibration()
         provenance = dict(cal.provenance)
