@@ -54,6 +54,10 @@ GENERATION_SHARE = 0.7
 PLAN_SHARE = 0.25
 #: ... or when it has found nothing new for this share of the time limit.
 PLAN_STALL_SHARE = 0.05
+#: With 2D correlations the cost-bounded strategies, which rank by the 13C
+#: approximate cost alone, get this fraction of their first-pass and plan
+#: shares: the annealing is the strategy whose energy uses the correlations.
+EVIDENCE_SHARE_FACTOR = 0.5
 
 
 def rank_key(item: ScoredStructure):
@@ -151,7 +155,9 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
                       (cal.fit_weight, cal.prior_weight))
     executor = WorkerPool(state, workers, pool_size) if workers > 1 else None
     orderly_deadline = start + (gen_deadline - start) * ORDERLY_SHARE
-    first_pass_deadline = start + (gen_deadline - start) * min(FIRST_PASS_SHARE, ORDERLY_SHARE)
+    # with 2D evidence and annealing to follow, the blind cost-bounded shares shrink
+    factor = EVIDENCE_SHARE_FACTOR if (problem.evidence is not None and problem.sampling) else 1.0
+    first_pass_deadline = start + (gen_deadline - start) * min(FIRST_PASS_SHARE, ORDERLY_SHARE) * factor
     dropped_min = math.inf
     n_found = 0
     runs: list[PassOutcome] = []
@@ -206,7 +212,7 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
             if problem.sampling:
                 # the plan search hands over to sampling at this point, or
                 # earlier when its yield dries up
-                plan_deadline = start + problem.time_limit * PLAN_SHARE
+                plan_deadline = start + problem.time_limit * PLAN_SHARE * factor
                 stall = problem.time_limit * PLAN_STALL_SHARE
             else:
                 plan_deadline = max(gen_deadline, start + problem.time_limit - 1.0 - SCORE_S * len(found))
