@@ -22,6 +22,7 @@ import numpy as np
 from rdkit import Chem
 
 from .cases import BANDS, band_of, read_cases
+from .constraints.correlations import link_correlations
 from .errors import InputError
 from .formula import parse_formula
 from .rank.calibration import calibrated_scores, listed_chance, listed_probabilities
@@ -88,13 +89,16 @@ def run_bench(
         if answer_mol is not None:
             verdicts = explain_constraints(answer_mol, formula, peaks, settings)
             row["answer_failed_constraints"] = [name for name, ok in verdicts if not ok]
-        table = None
+        table = evidence = None
         if correlations != "none" and answer_mol is not None:
-            table = synthetic_correlations(answer_mol, prepare_peaks(formula, peaks, None).peaks,
-                                           seed=case["id"], cosy=correlations == "synthetic+cosy")
+            lines = prepare_peaks(formula, peaks, None).peaks
+            table = synthetic_correlations(answer_mol, lines, seed=case["id"], cosy=correlations == "synthetic+cosy")
             row["correlation_rows"] = len(table) if table is not None else 0
         try:
-            result = solve(formula, peaks, settings, correlations=table)
+            if table is not None:  # tied to the lines once, for the solve and the answer's own score
+                evidence = link_correlations(table, lines, h_tolerance=settings.match_1h,
+                                             c_tolerance=settings.match_13c)
+            result = solve(formula, peaks, settings, correlations=evidence)
         except InputError as exc:
             row.update(error=str(exc), rank=None, complete=False, elapsed_s=None,
                        candidates=0, top_probability=None)
@@ -130,7 +134,7 @@ def run_bench(
                 # sampling rounds (see SolveResult.search_trace), for the early-stop model
                 trace=[list(t) for t in result.search_trace],
                 ended=result.search_ended,
-                answer_energy=_answer_energy(answer_mol, formula, peaks, settings, table),
+                answer_energy=_answer_energy(answer_mol, formula, peaks, settings, evidence),
             )
         rows.append(row)
         if on_row is not None:
@@ -180,7 +184,7 @@ def recalibrate_row(row: dict, calibration) -> dict:
     return out
 
 
-def _answer_energy(answer_mol, formula, peaks, settings, table=None) -> list | None:
+def _answer_energy(answer_mol, formula, peaks, settings, evidence=None) -> list | None:
     """The answer's own (assignment cost, prior): where it would rank, and
     whether a miss was the search's fault (a better-scoring answer unfound)
     or the ranking's."""
@@ -192,12 +196,6 @@ def _answer_energy(answer_mol, formula, peaks, settings, table=None) -> list | N
     prepared = prepare_peaks(formula, peaks, settings.solvent)
     rule = _constraints(formula, prepared, settings).rule
     smiles = Chem.MolToSmiles(answer_mol, isomericSmiles=False)
-    evidence = None
-    if table is not None:
-        from .constraints.correlations import link_correlations
-
-        evidence = link_correlations(table, prepared.peaks, h_tolerance=settings.match_1h,
-                                     c_tolerance=settings.match_13c)
     scored = score_structure(smiles, answer_mol, prepared.peaks, _structure_prior(rule, settings),
                              evidence=evidence)
     if scored is None:

@@ -22,7 +22,8 @@ from typing import Callable, Sequence
 from rdkit import Chem
 
 from .constraints.bundle import ConstraintSet, build_constraints
-from .constraints.correlations import C_TOLERANCE, H_TOLERANCE, CorrelationEvidence, link_correlations
+from .constraints.correlations import (C_TOLERANCE, H_TOLERANCE, CorrelationEvidence, check_tolerance,
+                                      link_correlations)
 from .constraints.spectral import SymmetryAllowance
 from .errors import InputError
 from .formula import Formula, parse_formula
@@ -105,9 +106,8 @@ class SolveSettings:
                 or self.near_alternatives < 0:
             raise InputError(f"--near-alternatives must be a whole number >= 0 (0: never list them), "
                              f"got {self.near_alternatives!r}")
-        for name, tol in (("--match-1h", self.match_1h), ("--match-13c", self.match_13c)):
-            if isinstance(tol, bool) or not isinstance(tol, (int, float)) or not 0 < tol < 50:
-                raise InputError(f"{name} must be a positive number of ppm (below 50), got {tol!r}")
+        check_tolerance("--match-1h", self.match_1h)
+        check_tolerance("--match-13c", self.match_13c)
         if not (isinstance(self.plausibility_weight, (int, float)) and 0 <= self.plausibility_weight < math.inf):
             raise InputError(f"plausibility_weight must be a number >= 0 (0 switches the plausibility cost "
                              f"off), got {self.plausibility_weight!r}")

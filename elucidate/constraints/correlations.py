@@ -64,7 +64,7 @@ from ..errors import InputError
 from ..rank.likelihood import shift_cost
 from ..spectrum.correlations import CorrelationTable, CrossPeak
 
-__all__ = ["LinkedCorrelation", "CorrelationEvidence", "CorrelationCheck", "link_correlations",
+__all__ = ["LinkedCorrelation", "CorrelationEvidence", "CorrelationCheck", "link_correlations", "check_tolerance",
            "H_TOLERANCE", "C_TOLERANCE", "LONG_RANGE_COST", "VIOLATION_COST"]
 
 #: Default matching tolerance for 1H shifts (ppm).
@@ -119,8 +119,10 @@ class CorrelationCheck:
         return f"{self.row.describe()}: {self.status} ({where})"
 
 
-def _lines_near(peaks: Sequence, shift: float, tol: float) -> tuple[int, ...]:
-    return tuple(i for i, p in enumerate(peaks) if abs(p.shift - shift) <= tol + 1e-9)
+def check_tolerance(name: str, tol) -> None:
+    """Raise InputError unless ``tol`` is a positive number of ppm below 50."""
+    if isinstance(tol, bool) or not isinstance(tol, (int, float)) or not 0 < tol < 50:
+        raise InputError(f"{name} must be a positive number of ppm (below 50), got {tol!r}")
 
 
 def link_correlations(table: CorrelationTable, peaks: Sequence, *, h_tolerance: float = H_TOLERANCE,
@@ -141,49 +143,43 @@ def link_correlations(table: CorrelationTable, peaks: Sequence, *, h_tolerance: 
         A row that matches no line, a proton that no HSQC row carries, an
         HSQC row on a line given as quaternary, or a bad tolerance.
     """
-    for name, tol in (("1H matching tolerance", h_tolerance), ("13C matching tolerance", c_tolerance)):
-        if isinstance(tol, bool) or not isinstance(tol, (int, float)) or not 0 < tol < 50:
-            raise InputError(f"{name} must be a positive number of ppm (below 50), got {tol!r}")
+    check_tolerance("1H matching tolerance", h_tolerance)
+    check_tolerance("13C matching tolerance", c_tolerance)
     peaks = tuple(peaks)
-    protons: list[tuple[float, tuple[int, ...]]] = []
-    linked: list[LinkedCorrelation] = []
-    for row in table.rows:
-        if row.experiment != "HSQC":
-            continue
-        lines = _lines_near(peaks, row.other, c_tolerance)
+
+    def lines_of(row: CrossPeak) -> tuple[int, ...]:
+        lines = tuple(i for i, p in enumerate(peaks) if abs(p.shift - row.other) <= c_tolerance + 1e-9)
         if not lines:
             raise InputError(f"{row.where}: {row.describe()} matches no 13C line within {c_tolerance:g} ppm; "
                              "check the 13C shift, add the line to the peak list, or widen the 13C tolerance")
-        lines = tuple(i for i in lines if peaks[i].hydrogens != 0)
-        if not lines:
-            raise InputError(f"{row.where}: {row.describe()} falls on a line the multiplicities give as C "
-                             "(no hydrogen); fix the multiplicity or the row")
-        protons.append((row.h_shift, lines))
-        linked.append(LinkedCorrelation(row, lines, lines))
+        return lines
+
+    # the protons: every HSQC row puts its proton on the protonated lines near its 13C shift
+    hsqc: dict[int, tuple[int, ...]] = {}
+    for k, row in enumerate(table.rows):
+        if row.experiment == "HSQC":
+            hsqc[k] = tuple(i for i in lines_of(row) if peaks[i].hydrogens != 0)
+            if not hsqc[k]:
+                raise InputError(f"{row.where}: {row.describe()} falls on a line the multiplicities give as C "
+                                 "(no hydrogen); fix the multiplicity or the row")
 
     def carriers(h: float, row: CrossPeak) -> tuple[int, ...]:
-        out = sorted({i for shift, lines in protons if abs(shift - h) <= h_tolerance + 1e-9 for i in lines})
+        out = sorted({i for k, lines in hsqc.items() if abs(table.rows[k].h_shift - h) <= h_tolerance + 1e-9
+                      for i in lines})
         if not out:
             raise InputError(f"{row.where}: no HSQC row has a proton at {h:g} ppm (within {h_tolerance:g}); "
                              "add the HSQC row of that proton, widen the 1H tolerance, or leave out rows of "
                              "protons on O or N (not used)")
         return tuple(out)
 
-    for row in table.rows:
+    linked = []
+    for k, row in enumerate(table.rows):
         if row.experiment == "HSQC":
-            continue
-        h_lines = carriers(row.h_shift, row)
-        if row.experiment == "COSY":
-            c_lines = carriers(row.other, row)
+            linked.append(LinkedCorrelation(row, hsqc[k], hsqc[k]))
         else:
-            c_lines = _lines_near(peaks, row.other, c_tolerance)
-            if not c_lines:
-                raise InputError(f"{row.where}: {row.describe()} matches no 13C line within {c_tolerance:g} "
-                                 "ppm; check the 13C shift, add the line to the peak list, or widen the 13C "
-                                 "tolerance")
-        linked.append(LinkedCorrelation(row, h_lines, c_lines))
-    order = {id(r): k for k, r in enumerate(table.rows)}
-    linked.sort(key=lambda c: order[id(c.row)])
+            h_lines = carriers(row.h_shift, row)
+            other = carriers(row.other, row) if row.experiment == "COSY" else lines_of(row)
+            linked.append(LinkedCorrelation(row, h_lines, other))
     return CorrelationEvidence(tuple(linked), h_tolerance, c_tolerance)
 
 

@@ -100,15 +100,15 @@ def next_measurements(peaks, candidates: Sequence, *, given=(), top: int = 5, li
         if isinstance(v, bool) or not isinstance(v, int) or v < 1:
             raise InputError(f"{name}={v!r}: give a positive whole number")
     peaks = list(peaks)
-    compared = [c for c in candidates if not getattr(c, "set_aside", "")][:top]
-    if len(compared) < 2:
+    ranked = [(k + 1, c) for k, c in enumerate(candidates) if not getattr(c, "set_aside", "")][:top]
+    if len(ranked) < 2:
         return []
+    ranks = [r for r, _c in ranked]
+    compared = [c for _r, c in ranked]
     probs = [max(0.0, float(c.probability)) + FLOOR for c in compared]
     total = sum(probs)
     probs = [p / total for p in probs]
     layouts = [_layout(c) for c in compared]
-    ranks = [candidates.index(c) + 1 if isinstance(candidates, (list, tuple)) else k + 1
-             for k, c in enumerate(compared)]
     measured = set()
     for link in given:
         exp = link.row.experiment

@@ -161,7 +161,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
         # without multiplicities: the lines whose multiplicity differs among the top 5 (null with them)
         "multiplicities": multiplicity_notes(result.peaks.peaks, result.candidates),
         # measurements whose expected outcome differs among the top candidates, best first
-        "next_measurements": next_measurements(result.peaks.peaks, list(result.candidates),
+        "next_measurements": next_measurements(result.peaks.peaks, result.candidates,
                                                given=result.correlations),
         "reference_neighbours": [dict(n) for n in result.reference_neighbours],
         "caution": CAUTION,

@@ -36,6 +36,7 @@ from dataclasses import dataclass
 
 from ..errors import InputError
 from .peaklist import SHIFT_RANGE
+from .textfile import read_utf8
 
 __all__ = ["CrossPeak", "CorrelationTable", "parse_correlations", "read_correlations", "EXPERIMENTS",
            "H_SHIFT_RANGE"]
@@ -175,15 +176,7 @@ def read_correlations(source: str) -> CorrelationTable:
     if "\n" not in path and os.path.exists(path):
         if os.path.isdir(path):
             raise InputError(f"correlation file {path} is a directory; give the path of a text/CSV file")
-        try:
-            with open(path, "rb") as fh:
-                data = fh.read()
-        except OSError as exc:
-            raise InputError(f"cannot read correlation file {path}: {exc.strerror or exc}") from None
-        try:
-            text = data.decode("utf-8-sig")
-        except UnicodeDecodeError:
-            raise InputError(f"correlation file {path} is not UTF-8 text; save it as plain text") from None
+        text = read_utf8(path, "correlation file")
         try:
             return parse_correlations(text, source=path)
         except InputError as exc:

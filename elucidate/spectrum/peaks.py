@@ -82,6 +82,7 @@ from ..errors import InputError
 from .jcamp import peaks_from_jcamp
 from .peaklist import SHIFT_RANGE, Peak, PeakList
 from .peaklist import merge_lines as _merge
+from .textfile import read_utf8
 
 __all__ = [
     "Peak",
@@ -590,15 +591,7 @@ def read_peaks(source: str, *, dept135=None, dept90=None, pick_settings=None) ->
         raise InputError(f"peak file {path} is a directory; give the path of a peak file")
     text = None
     if exists and not path.lower().endswith(_JCAMP_SUFFIXES):
-        try:
-            with open(path, "rb") as fh:
-                data = fh.read()
-        except OSError as exc:
-            raise InputError(f"cannot read peak file {path}: {exc.strerror or exc}; check its permissions") from None
-        try:
-            text = data.decode("utf-8-sig")
-        except UnicodeDecodeError:
-            raise InputError(f"peak file {path} is not UTF-8 text; save it as plain text (UTF-8)") from None
+        text = read_utf8(path, "peak file")
     if exists and (text is None or text.lstrip().startswith("##")):
         return peaks_from_jcamp(path, dept135, dept90, pick_settings)
     if not exists and _looks_like_path(path):
