@@ -195,8 +195,9 @@ def _arrow_paths(ends) -> str:
     out.append('</defs><g class="correlations" fill="none" stroke-width="1.6" opacity="0.85">')
     keys = list(_ARROW_STYLE)
     for p, q, status in ends:
-        colour, dash = _ARROW_STYLE.get(status, _ARROW_STYLE["violated"])
-        k = keys.index(status) if status in keys else keys.index("violated")
+        status = status if status in _ARROW_STYLE else "violated"
+        k = keys.index(status)
+        colour, dash = _ARROW_STYLE[status]
         mx, my = (p.x + q.x) / 2, (p.y + q.y) / 2
         dx, dy = q.x - p.x, q.y - p.y
         cx, cy = mx - 0.25 * dy, my + 0.25 * dx  # bow the curve to the left of its direction
