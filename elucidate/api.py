@@ -246,5 +246,5 @@ def to_dict(result, *, sample_id: str | None = None, analyst: str | None = None,
         return check_to_dict(result)
     if isinstance(result, tuple) and all(isinstance(a, AtomShift) for a in result):
         return [{"index": a.index, "element": a.element, "hydrogens": a.hydrogens,
-                 "shift": a.shift, "sigma": a.sigma} for a in result]
+                 "shift": a.shift, "sigma": a.sigma, "predictor": a.predictor} for a in result]
     raise InputError(f"to_dict takes a solve, check or predict result, got {type(result).__name__}")

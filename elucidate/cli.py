@@ -404,7 +404,7 @@ def predict(smiles, input_file, fmt):
         r = {
             "smiles": smi,
             "atoms": [{"index": a.index, "element": a.element, "hydrogens": a.hydrogens,
-                       "shift": a.shift, "sigma": a.sigma} for a in atoms],
+                       "shift": a.shift, "sigma": a.sigma, "predictor": a.predictor} for a in atoms],
         }
         if not atoms:
             r["note"] = _NO_CARBON_NOTE
@@ -423,7 +423,8 @@ def predict(smiles, input_file, fmt):
         if "note" in r:
             click.echo(f"  {r['note']}")
         for a in r["atoms"]:
-            click.echo(f"  C{a['index']:<4} H{a['hydrogens']}  {a['shift']:7.2f} ppm  ± {a['sigma']:.1f}")
+            click.echo(f"  C{a['index']:<4} H{a['hydrogens']}  {a['shift']:7.2f} ppm  ± {a['sigma']:.1f}  "
+                       f"({a['predictor']})")
 
 
 _NO_CARBON_NOTE = "no carbon atoms: nothing to predict"
@@ -448,9 +449,13 @@ _NO_CARBON_NOTE = "no carbon atoms: nothing to predict"
               help="2D correlations given to each case: synthetic HSQC + HMBC (+ COSY) made from the answer "
                    "(placeholder 1H shifts, 25 % of HMBC dropped, 5 % 4-bond extras; synthetic, not measured: "
                    "docs/correlations.md).")
+@click.option("--predictor", type=click.Choice(["auto", "table", "table+trees"]), default="auto",
+              show_default=True,
+              help="Shift predictor: table (environment table alone), table+trees (corrected by the learned "
+                   "trees) or auto (the trees when shipped); for old-versus-new runs on the same cases.")
 @click.option("--output", "-o", default=None,
               help="Also write per-case results (JSON lines) here, each as soon as it is done.")
-def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlations, output):
+def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlations, predictor, output):
     """Measure elucidation on a case file (JSON lines with formula, peaks, answer).
 
     Prints top-1/top-5/found rates and times per heavy-atom band.
@@ -475,7 +480,13 @@ def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlation
         except OSError as exc:
             raise InputError(f"cannot write output file {output!r}: {exc.strerror}") from None
 
+    from .predict.model import load_default_model, use_predictor
+
+    use_predictor(predictor)
+    predictor_name = load_default_model().name
+
     def write_row(row):
+        row["predictor"] = predictor_name
         if sink is not None:
             sink.write(json.dumps(row) + "\n")
             sink.flush()
@@ -645,6 +656,9 @@ def _register_shift_bench():
     from .predict.evaluate import predictor_bench_command
 
     main.add_command(predictor_bench_command, "bench-shifts")
+    from .predict.train import build_trees_command
+
+    main.add_command(build_trees_command, "build-trees")
 
 
 _register_shift_bench()

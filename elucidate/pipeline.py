@@ -31,7 +31,8 @@ from .generate import WIDE_VALENCES, AtomType
 from .rank.assignment import LineEntry
 from .rank.calibration import (Calibration, calibrated_scores, listed_basis, listed_chance, listed_is_calibrated,
                                listed_probabilities, load_calibration)
-from .rank.scoring import ScoredStructure, StructurePrior, rank_structure
+from .predict.model import load_default_model
+from .rank.scoring import ScoredStructure, StructurePrior, rank_structure, score_structure
 from .search import SearchProblem, rank_key, run_search
 from .search.statement import assumptions, completeness_sentence, empty_result_warning, how_sentence
 from .spectrum.peaks import PeakList, check_against_formula, read_peaks
@@ -43,6 +44,7 @@ __all__ = [
     "SolveResult",
     "solve",
     "rank_structure",
+    "refine_ranking",
     "explain_constraints",
     "approximate_cost",
 ]
@@ -290,7 +292,7 @@ def solve(
     )
     outcome = run_search(problem)
 
-    ranked = sorted(outcome.scored, key=rank_key)[: settings.keep]
+    ranked = refine_ranking(outcome.scored, peaks.peaks, prior, evidence, settings.keep)
     status, cost_bound = outcome.status, outcome.cost_bound
     calibration = load_calibration()
     candidates = _finalise(ranked, settings.top, calibration, outcome.sources)
@@ -341,6 +343,32 @@ def solve(
         reference_neighbours=tuple(_neighbours(peaks, formula, settings, library)),
         correlations=evidence.rows if evidence is not None else (),
     )
+
+
+def refine_ranking(scored: Sequence[ScoredStructure], peaks, prior, evidence, keep: int,
+                   model=None) -> list[ScoredStructure]:
+    """The ``keep`` best structures of a search, re-scored with the best predictor.
+
+    Every search strategy scores with the fast environment table
+    (:func:`elucidate.predict.model.load_search_model`); the structures it
+    keeps are then scored again, in full, with the best shipped predictor
+    (the table corrected by the learned trees, :mod:`elucidate.predict.learned`)
+    and ranked by that score.  Which structures are listed is the search's
+    business; their order, assignments, uncertainties and probabilities
+    come from the better predictor.  Without the learned correction the
+    search's scores are kept as they are.
+    """
+    first = sorted(scored, key=rank_key)[:keep]
+    model = model or load_default_model()
+    if model.trees is None:
+        return first
+    out = []
+    for s in first:
+        mol = Chem.MolFromSmiles(s.smiles)
+        again = score_structure(s.smiles, mol, peaks, prior, smiles_written=False, evidence=evidence,
+                                model=model) if mol is not None else None
+        out.append(again if again is not None else s)
+    return sorted(out, key=rank_key)
 
 
 def _evidence(correlations, peaks: PeakList, settings: SolveSettings) -> CorrelationEvidence | None:

@@ -67,7 +67,7 @@ def _stop_data(data):
     return xs, ys
 
 
-def _fit(data, time_limit):
+def _fit(data, time_limit, plausibility_weight=None):
     """Calibration fitted on bench rows that carry fit_terms.
 
     Rows of this version carry three terms per candidate (assignment cost,
@@ -79,7 +79,8 @@ def _fit(data, time_limit):
     k = 3 if n_terms >= 3 else 2
     found = [tuple(np.array([t[i] for t in r["fit_terms"]]) for i in range(k)) + (r["rank"] - 1,)
              for r in data if r.get("rank") is not None]
-    weights = fit_score_weights(found)
+    fixed = {2: plausibility_weight} if plausibility_weight is not None and k == 3 else None
+    weights = fit_score_weights(found, fixed=fixed)
     a, b = weights[:2]
     c = weights[2] if k == 3 else PROVISIONAL_PLAUSIBILITY_WEIGHT
     complete = [r for r in data if r.get("status") == "complete"]
@@ -108,7 +109,8 @@ def _fit(data, time_limit):
         provenance={
             "fitted": datetime.date.today().isoformat(),
             "method": "conditional logit weights + logistic listed-answer model (rank/calibration.py)",
-            "plausibility_weight": "fitted" if k == 3 else "provisional (rows carry no plausibility term)",
+            "plausibility_weight": ("fitted" if fixed is None else f"held at {plausibility_weight} (given)")
+            if k == 3 else "provisional (rows carry no plausibility term)",
             "data": "elucidation runs (mult mode) over training constitutions held out from a rebuilt "
                     "shift table (one in 20 by hash of the canonical SMILES); open nmrshiftdb2 data "
                     "(Steinbeck, Krause, Kuhn, J. Chem. Inf. Comput. Sci. 2003, 43, 1733)",
@@ -146,7 +148,10 @@ def main():
               help="Keep the three score weights of the shipped calibration (the runs were ranked with them) and "
                    "fit every listed-answer model and the early-stop model on these runs (runs made after "
                    "`heldout-start`, which turns both early stops off).")
-def fit(rows, out, time_limit, sampling_only, keep_weights):
+@click.option("--plausibility-weight", type=float, default=None,
+              help="Hold the plausibility weight at this value and fit the other two score weights with it "
+                   "(the list's plausible company is a product choice: DEVELOPERS.md).")
+def fit(rows, out, time_limit, sampling_only, keep_weights, plausibility_weight):
     """Fit weights and the listed-answer model on held-out bench rows."""
     import dataclasses
 
@@ -155,7 +160,7 @@ def fit(rows, out, time_limit, sampling_only, keep_weights):
     data = [r for r in _rows(rows) if r.get("fit_terms")]
     if not data:
         raise click.UsageError("no row carries fit_terms; run `elucidate bench ... -o ROWS` with this version")
-    cal = _fit(data, time_limit)
+    cal = _fit(data, time_limit, plausibility_weight)
     if keep_weights:
         kept = load_calibration()
         provenance = dict(cal.provenance)
@@ -217,14 +222,16 @@ def apply(rows, path, mode):
 @main.command()
 @click.argument("rows", nargs=-1, required=True, type=click.Path(exists=True, dir_okay=False))
 @click.option("--folds", default=5, show_default=True)
-def crossval(rows, folds):
+@click.option("--plausibility-weight", type=float, default=None,
+              help="Hold the plausibility weight at this value in every fold (as `fit` does).")
+def crossval(rows, folds, plausibility_weight):
     """Out-of-fold check: fit on all folds but one, apply to that one."""
     data = [r for r in _rows(rows) if r.get("fit_terms")]
     out = []
     for k in range(folds):
         train = [r for i, r in enumerate(data) if i % folds != k]
         test = [r for i, r in enumerate(data) if i % folds == k]
-        out += [recalibrate_row(r, _fit(train, 0.0)) for r in test]
+        out += [recalibrate_row(r, _fit(train, 0.0, plausibility_weight)) for r in test]
     click.echo(format_bench_table(out, mode="mult"))
 
 

@@ -41,7 +41,7 @@ from elucidate.predict.codes import (
     path_features,
     sphere_codes,
 )
-from elucidate.predict.model import load_default_model
+from elucidate.predict.model import load_search_model
 from elucidate.rank import rotamers
 from elucidate.rank.assignment import OVERLAP_COST, SPLIT_COST, UNFILLED_COST, CarbonClass, LineEntry, assign_lines
 from elucidate.rank.cover import CoverRow, cover_cost, cover_cost_lists, min_offset_cover
@@ -479,7 +479,7 @@ def _classes(mol, shifts, split_costs):
 def _peaks(mol, k, counted=False):
     """Invented lines near the reference predictions (seeded), with overlaps,
     extra lines and unknown multiplicities."""
-    model = load_default_model()
+    model = load_search_model()
     shifts = {p[0]: p for p in ref_predict(model, mol)}
     rng = random.Random(1000 + k)
     lines = []
@@ -526,11 +526,11 @@ def test_sphere_codes_and_path_features_equal_the_reference(mols):
 
 
 def test_predictions_equal_the_reference_with_cold_and_warm_cache(mols):
-    model = load_default_model()
+    model = load_search_model()  # the table, which the reference re-implements
     model._cache.clear()
     for _ in range(2):  # first pass fills the cache, the second reads it
         for mol in mols:
-            got = [(a.index, a.hydrogens, a.shift, a.sigma, a.sphere) for a in predict_mol(mol)]
+            got = [(a.index, a.hydrogens, a.shift, a.sigma, a.sphere) for a in predict_mol(mol, model)]
             assert got == ref_predict(model, mol)
 
 
@@ -578,7 +578,7 @@ def test_edited_molecule_never_reuses_stale_forms():
 def test_rank_structure_equals_the_reference(mols, monkeypatch):
     from elucidate.rank import assignment
 
-    model = load_default_model()
+    model = load_search_model()
     for k, mol in enumerate(mols):
         assert rotamers.hindered_bonds(mol) == ref_hindered_bonds(mol)
         assert carbon_classes(mol) == ref_carbon_classes(mol)

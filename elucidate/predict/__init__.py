@@ -21,7 +21,7 @@ from .model import load_default_model
 __all__ = ["AtomShift", "predict_mol", "predict_smiles"]
 
 
-def predict_mol(mol) -> tuple[AtomShift, ...]:
+def predict_mol(mol, model=None) -> tuple[AtomShift, ...]:
     """Predict the 13C shift of every carbon of a molecule.
 
     Parameters
@@ -29,6 +29,9 @@ def predict_mol(mol) -> tuple[AtomShift, ...]:
     mol : rdkit.Chem.Mol
         A sanitized molecule (implicit or explicit hydrogens; RDKit default
         aromaticity).
+    model : ShiftModel, optional
+        Default: the best shipped predictor (`load_default_model`: the
+        table corrected by the learned trees when they are shipped).
 
     Returns
     -------
@@ -39,11 +42,11 @@ def predict_mol(mol) -> tuple[AtomShift, ...]:
         raise InputError(
             f"predict_mol needs an RDKit Mol, got {type(mol).__name__}; "
             "parse SMILES with predict_smiles or Chem.MolFromSmiles first")
-    model = load_default_model()
+    model = model or load_default_model()
     return tuple(
         AtomShift(index=idx, element="C", hydrogens=h, shift=round(sh, 2),
-                  sigma=round(sg, 2), sphere=s)
-        for idx, h, sh, sg, s in sorted(model.predict_mol(mol))
+                  sigma=round(sg, 2), sphere=s, predictor=src)
+        for idx, h, sh, sg, s, src in sorted(model.predict_mol(mol, with_source=True))
     )
 
 

@@ -25,6 +25,9 @@ class AtomShift:
         Predicted uncertainty, ppm (about one standard deviation), > 0.
     sphere : int
         Deepest environment sphere matched in the table (0 = fallback only).
+    predictor : str
+        Which predictor produced the value: ``"table"`` (environment table)
+        or ``"table+trees"`` (table corrected by the learned trees).
     """
 
     index: int
@@ -33,3 +36,4 @@ class AtomShift:
     shift: float
     sigma: float
     sphere: int
+    predictor: str = "table"

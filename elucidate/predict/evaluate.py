@@ -17,6 +17,7 @@ Krause, Kuhn, *J. Chem. Inf. Comput. Sci.* 2003, 43, 1733 (from memory).
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import click
 import numpy as np
@@ -24,7 +25,7 @@ from rdkit import Chem, rdBase
 
 from ..cases import BANDS, read_cases
 from ..errors import InputError
-from .model import ShiftModel, load_default_model
+from .model import PREDICTORS, ShiftModel, default_table_path, default_trees_path, load_default_model
 
 __all__ = ["BANDS", "match_errors", "evaluate_cases", "predictor_bench_command"]
 
@@ -94,6 +95,7 @@ def _summary(errs):
         "rms": round(float(np.sqrt(np.mean(e ** 2))), 3),
         "p99": round(float(np.percentile(e, 99)), 3),
         "within_1_sigma": round(float(np.mean(e <= sg)), 3),
+        "within_2_sigma": round(float(np.mean(e <= 2 * sg)), 3),
     }
 
 
@@ -129,6 +131,7 @@ def evaluate_cases(cases_path, model: ShiftModel | None = None, use_mult=True) -
                 by_band[(lo, hi)].extend(errs)
     spheres = np.array([x[2] for x in all_errs]) if all_errs else np.zeros(0)
     return {
+        "predictor": getattr(model, "name", "table"),
         "cases": n_cases,
         "overall": _summary(all_errs),
         "bands": {f"{lo}-{hi}": _summary(by_band[(lo, hi)]) for lo, hi in BANDS},
@@ -141,9 +144,28 @@ def evaluate_cases(cases_path, model: ShiftModel | None = None, use_mult=True) -
 @click.argument("cases", type=click.Path(dir_okay=False))
 @click.option("--table", type=click.Path(dir_okay=False), default=None,
               help="Use this shift table instead of the shipped one.")
+@click.option("--trees", type=click.Path(dir_okay=False), default=None,
+              help="Use this learned correction (from build-trees) instead of the shipped one.")
+@click.option("--predictor", type=click.Choice(PREDICTORS), default="auto", show_default=True,
+              help="table: the environment table alone; table+trees: corrected by the learned trees; "
+                   "auto: the trees when available.")
 @click.option("--no-mult", is_flag=True, help="Match over all carbons, ignoring multiplicities.")
-def predictor_bench_command(cases, table, no_mult):
-    """Assignment-free 13C shift accuracy on CASES (JSON lines with answers)."""
-    model = ShiftModel.load(table) if table else None
+def predictor_bench_command(cases, table, trees, predictor, no_mult):
+    """Assignment-free 13C shift accuracy on CASES (JSON lines with answers).
+
+    Prints MAE, RMS, p99 and the share of carbons within one and two
+    predicted sigmas, overall and per heavy-atom band.
+
+    Example: elucidate bench-shifts ../shared/data/bench_cases.jsonl --predictor table
+    """
+    model = ShiftModel.load(table or default_table_path())
+    trees_path = trees or default_trees_path()
+    if predictor == "table+trees" or (predictor == "auto" and (trees or Path(trees_path).exists())):
+        if not Path(trees_path).exists():
+            raise InputError(f"learned correction {trees_path} not found; build it with "
+                             "`elucidate build-trees` or use --predictor table")
+        from .learned import LearnedCorrection
+
+        model = model.with_trees(LearnedCorrection.load(trees_path))
     result = evaluate_cases(cases, model=model, use_mult=not no_mult)
     click.echo(json.dumps(result, indent=2))

@@ -27,6 +27,7 @@ fallback features too), so ranking many related candidates is cheap.
 
 from __future__ import annotations
 
+import copy
 import json
 from itertools import repeat
 from pathlib import Path
@@ -42,9 +43,14 @@ __all__ = [
     "count_bucket",
     "ShiftModel",
     "default_table_path",
+    "default_predictor_label",
     "default_table_version",
+    "PREDICTORS",
+    "default_trees_path",
     "load_default_model",
+    "load_search_model",
     "table_version",
+    "use_predictor",
 ]
 
 #: Spheres whose codes carry a fallback increment of their own.
@@ -97,6 +103,29 @@ class ShiftModel:
         self._sigma = [list(map(float, r)) for r in sigma]
         self.meta = meta
         self._cache = {}
+        self.trees = None
+
+    def with_trees(self, trees) -> "ShiftModel":
+        """This table with a learned correction (`LearnedCorrection`) attached.
+
+        Returns a new model that shares the table's arrays and has a cache
+        of its own; ``None`` gives the table alone.
+        """
+        if trees is not None and trees.table_version != table_version(self.meta):
+            from ..errors import InputError
+
+            raise InputError(
+                f"the learned correction was trained on shift table {trees.table_version} but the "
+                f"table is {table_version(self.meta)}; retrain it with `elucidate build-trees`")
+        other = copy.copy(self)
+        other.trees = trees
+        other._cache = {}
+        return other
+
+    @property
+    def name(self) -> str:
+        """Which predictor produces the shifts: ``"table+trees"`` or ``"table"``."""
+        return "table+trees" if self.trees is not None else "table"
 
     # -- persistence -----------------------------------------------------
     def save(self, path) -> None:
@@ -199,18 +228,47 @@ class ShiftModel:
             sig = (0.5 * sig * sig + 0.5 * spread * spread) ** 0.5
         return shift, max(sig, _SIGMA_FLOOR)
 
-    def predict_graph(self, graph):
+    def sphere_stats(self, codes):
+        """Per sphere 0..MAX_SPHERE: median, count and spread of the code's
+        examples (NaN, 0, NaN where the code is not in the table)."""
+        return self._sphere_stats(_CodeKeys(codes))
+
+    def _sphere_stats(self, keys: "_CodeKeys"):
+        nan = float("nan")
+        med = [nan] * (MAX_SPHERE + 1)
+        cnt = [0] * (MAX_SPHERE + 1)
+        spr = [nan] * (MAX_SPHERE + 1)
+        row = self._row
+        for s in range(1, MAX_SPHERE + 1):
+            i = row.get(keys[s])
+            if i is not None:
+                med[s] = self._median[i]
+                cnt[s] = self._count[i]
+                spr[s] = self._spread[i]
+        return med, cnt, spr
+
+    def predict_graph(self, graph, with_source: bool = False):
         """Predict all carbons of a `MolGraph`.
+
+        With a learned correction attached (`with_trees`), the carbons not yet
+        in the cache are corrected together in one batch -- except a carbon
+        whose sphere-5 code takes in its whole molecule and is in the table:
+        that molecule itself was measured, and the table's value stands (the
+        trees learned corrections for environments seen in *other* molecules
+        only; see docs/prediction.md).
 
         Returns
         -------
         list of tuple
             ``(local index, shift, sigma, sphere)`` per carbon, ascending
-            local index.
+            local index; with ``with_source``, a fifth item says which
+            predictor gave the value (``"table"`` or ``"table+trees"``).
         """
         out = []
         cache = self._cache
         steps = _shell_steps(graph)
+        trees = self.trees
+        pending = []
         for i, sym in enumerate(graph.symbol):
             if sym != "C":
                 continue
@@ -224,16 +282,39 @@ class ShiftModel:
                 s, m, n, spread, up = self._lookup(keys)
                 fb = self._fallback(feats, keys, graph.hydrogens[i])
                 shift, sig = self.combine(s, m, n, spread, up, fb, graph.hydrogens[i])
-                hit = (shift, sig, s)
+                whole = s == MAX_SPHERE and not shells[-1][0]  # whole molecule within sphere 5, in the table
+                if trees is not None and not whole:
+                    med, cnt, spr = self._sphere_stats(keys)
+                    pending.append((len(out), i, key, s, shift,
+                                    trees.features(graph, i, shells, shift, fb, s, med, cnt, spr)))
+                    out.append(None)
+                    continue
+                hit = (shift, sig, s, "table")
                 if len(cache) > 500_000:
                     cache.clear()
                 cache[key] = hit
-            out.append((i, hit[0], hit[1], hit[2]))
-        return out
+            out.append((i, hit[0], hit[1], hit[2], hit[3]))
+        if pending:
+            shifts, sigmas = trees.correct([p[4] for p in pending], [p[5] for p in pending])
+            if len(cache) > 500_000:
+                cache.clear()
+            for (pos, i, key, s, _, _), sh, sg in zip(pending, shifts.tolist(), sigmas.tolist()):
+                cache[key] = (sh, sg, s, "table+trees")
+                out[pos] = (i, sh, sg, s, "table+trees")
+        if with_source:
+            return out
+        return [o[:4] for o in out]
 
-    def predict_mol(self, mol):
-        """`predict_graph` on an RDKit molecule; indices are RDKit indices."""
+    def predict_mol(self, mol, with_source: bool = False):
+        """`predict_graph` on an RDKit molecule; indices are RDKit indices.
+
+        Returns ``(atom index, hydrogens, shift, sigma, sphere)`` per carbon,
+        plus the predictor that gave the value with ``with_source``.
+        """
         graph = graph_from_mol(mol)
+        if with_source:
+            return [(graph.atom_index[i], graph.hydrogens[i], sh, sg, s, src)
+                    for i, sh, sg, s, src in self.predict_graph(graph, True)]
         return [(graph.atom_index[i], graph.hydrogens[i], sh, sg, s)
                 for i, sh, sg, s in self.predict_graph(graph)]
 
@@ -267,12 +348,43 @@ class _CodeKeys:
 
 
 _DEFAULT = None
+_TABLE = None
+#: Which predictor `load_default_model` gives: "auto" (trees when shipped), "table" or "table+trees".
+_DEFAULT_KIND = "auto"
+
+PREDICTORS = ("auto", "table", "table+trees")
 
 
-def load_default_model() -> ShiftModel:
-    """The shipped model, loaded once per process (lazily)."""
-    global _DEFAULT
-    if _DEFAULT is None:
+def default_trees_path() -> Path:
+    """Path of the learned correction shipped inside the package."""
+    from ..datafiles import data_file
+
+    return data_file("shift_trees.npz")
+
+
+def use_predictor(kind: str) -> None:
+    """Choose the predictor `load_default_model` returns in this process.
+
+    Parameters
+    ----------
+    kind : {"auto", "table", "table+trees"}
+        ``"table"``: the environment table alone; ``"table+trees"``: the
+        table corrected by the learned trees (error if they are missing);
+        ``"auto"``: the trees when the package ships them.
+    """
+    global _DEFAULT_KIND, _DEFAULT
+    if kind not in PREDICTORS:
+        from ..errors import InputError
+
+        raise InputError(f"unknown predictor {kind!r}; choose one of {', '.join(PREDICTORS)}")
+    if kind != _DEFAULT_KIND:
+        _DEFAULT_KIND = kind
+        _DEFAULT = None
+
+
+def _load_table() -> ShiftModel:
+    global _TABLE
+    if _TABLE is None:
         path = default_table_path()
         if not path.exists():
             from ..errors import InputError
@@ -281,7 +393,36 @@ def load_default_model() -> ShiftModel:
                 f"the shift table {path} is missing; reinstall the package or "
                 "rebuild it with `elucidate build-table --data TRAIN.jsonl.gz`"
             )
-        _DEFAULT = ShiftModel.load(path)
+        _TABLE = ShiftModel.load(path)
+    return _TABLE
+
+
+def load_search_model() -> ShiftModel:
+    """The table alone: the fast predictor every search strategy scores with
+    (thousands of structures a second).  Loaded once per process."""
+    return _load_table()
+
+
+def load_default_model() -> ShiftModel:
+    """The best shipped predictor, loaded once per process (lazily): the
+    table with the learned correction attached when the package ships it
+    (see `use_predictor`).  Used by `elucidate predict`, the bench of the
+    predictor and the final ranking of a solve's candidates."""
+    global _DEFAULT
+    if _DEFAULT is None:
+        table = _load_table()
+        trees_path = default_trees_path()
+        if _DEFAULT_KIND == "table+trees" or (_DEFAULT_KIND == "auto" and trees_path.exists()):
+            if not trees_path.exists():
+                from ..errors import InputError
+
+                raise InputError(f"the learned correction {trees_path} is missing; build it with "
+                                 "`elucidate build-trees --data TRAIN.jsonl.gz` or use the table alone")
+            from .learned import LearnedCorrection
+
+            _DEFAULT = table.with_trees(LearnedCorrection.load(trees_path))
+        else:
+            _DEFAULT = table
     return _DEFAULT
 
 
@@ -304,6 +445,15 @@ def table_version(meta: dict) -> str:
     date = str(meta.get("build_date") or "unknown")
     sha = str(meta.get("data_sha256") or "unknown")[:8]
     return f"{date}+{sha}"
+
+
+def default_predictor_label() -> str:
+    """What ranks a solve's candidates: ``"table"`` or ``"table+trees <version>"``
+    (the learned correction's build date and training-data checksum prefix)."""
+    model = load_default_model()
+    if model.trees is None:
+        return "table"
+    return f"table+trees {table_version(model.trees.meta)}"
 
 
 def default_table_version() -> str:

@@ -270,16 +270,19 @@ def better_chance(since_gain: int, total_hits: int, rounds: int, heavy_atoms: in
 
 # ---------------------------------------------------------------- fitting
 
-def fit_score_weights(cases: Sequence[tuple], iterations: int = 50) -> tuple[float, ...]:
+def fit_score_weights(cases: Sequence[tuple], iterations: int = 50,
+                      fixed: dict | None = None) -> tuple[float, ...]:
     """Maximum-likelihood conditional-logit weights, one per score part.
 
     ``cases``: per case, one array per score part over the listed candidates
     (assignment costs first, then priors, e.g. rarity and plausibility) and,
     last, the index of the true constitution among them; every case has the
     same number of parts.  Newton's method on the concave log-likelihood;
-    returns ``(a, b)`` for two parts, ``(a, b, c)`` for three.  Raises
-    ValueError without data.
+    returns ``(a, b)`` for two parts, ``(a, b, c)`` for three.  ``fixed``
+    maps part indices to weights held at a given value (the others are
+    fitted with that part as a fixed offset).  Raises ValueError without data.
     """
+    fixed = dict(fixed or {})
     rows = []
     for case in cases:
         *parts, k = case
@@ -291,14 +294,24 @@ def fit_score_weights(cases: Sequence[tuple], iterations: int = 50) -> tuple[flo
     dims = {x.shape[1] for x, _k in rows}
     if len(dims) != 1:
         raise ValueError(f"cases mix {sorted(dims)} score parts; fit rows of one version at a time")
-    d = dims.pop()
+    d_all = dims.pop()
+    if any(not 0 <= i < d_all for i in fixed):
+        raise ValueError(f"fixed part indices must lie in 0..{d_all - 1}")
+    free = [i for i in range(d_all) if i not in fixed]
+    if fixed:
+        fix_idx = sorted(fixed)
+        fix_w = np.array([fixed[i] for i in fix_idx], dtype=float)
+        rows = [(x[:, free], k, x[:, fix_idx] @ fix_w) for x, k in rows]
+    else:
+        rows = [(x, k, 0.0) for x, k in rows]
+    d = len(free)
     theta = np.ones(d)
-    floor = np.array([1e-3] + [0.0] * (d - 1))
+    floor = np.array([1e-3 if i == 0 else 0.0 for i in free])
     for _ in range(iterations):
         grad = np.zeros(d)
         hess = np.zeros((d, d))
-        for x, k in rows:
-            u = -(x @ theta)  # utility
+        for x, k, off in rows:
+            u = -(x @ theta) - off  # utility
             p = np.exp(u - u.max())
             p /= p.sum()
             mean = p @ x
@@ -310,7 +323,9 @@ def fit_score_weights(cases: Sequence[tuple], iterations: int = 50) -> tuple[flo
         theta = np.maximum(theta, floor)
         if np.abs(step).max() < 1e-8:
             break
-    return tuple(float(t) for t in theta)
+    out = dict(zip(free, (float(t) for t in theta)))
+    out.update({i: float(w) for i, w in fixed.items()})
+    return tuple(out[i] for i in range(d_all))
 
 
 def fit_logistic(features: Sequence[Sequence[float]], outcomes: Sequence[bool],

@@ -21,6 +21,7 @@ from rdkit import Chem
 
 from ..constraints.spectral import carbon_classes
 from ..predict import predict_mol
+from ..predict.model import load_search_model
 from .assignment import SPLIT_COST, Assignment, CarbonClass, assign_lines
 from .rotamers import rotamer_split_costs
 
@@ -79,14 +80,16 @@ class StructurePrior:
         return r + q
 
 
-def rank_structure(mol: Chem.Mol, peaks: Sequence) -> tuple[Assignment, tuple]:
+def rank_structure(mol: Chem.Mol, peaks: Sequence, model=None) -> tuple[Assignment, tuple]:
     """Predict a structure's shifts and assign the lines to its carbons.
 
     Carbons are grouped into symmetry classes (:func:`carbon_classes`); a
     class that slow rotation about an amide-type bond can split pays its own
-    measured split cost (:mod:`elucidate.rank.rotamers`).
+    measured split cost (:mod:`elucidate.rank.rotamers`).  ``model``: the
+    shift predictor (default: the fast search predictor, the environment
+    table alone, `elucidate.predict.model.load_search_model`).
     """
-    shifts = {a.index: a for a in predict_mol(mol)}
+    shifts = {a.index: a for a in predict_mol(mol, model or load_search_model())}
     split_costs = rotamer_split_costs(mol)
     classes = []
     for h, groups in carbon_classes(mol).items():
@@ -116,7 +119,7 @@ def smiles_order(mol: Chem.Mol, smiles_written: bool) -> tuple[int, ...]:
 
 def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
                     prior: Callable[[Chem.Mol], float] | None,
-                    smiles_written: bool = True, evidence=None) -> ScoredStructure | None:
+                    smiles_written: bool = True, evidence=None, model=None) -> ScoredStructure | None:
     """Raw score of one structure, or None when its carbons cannot be placed
     under the lines at all (e.g. no line of a carbon's multiplicity).
 
@@ -135,8 +138,10 @@ def score_structure(smiles: str, mol: Chem.Mol, peaks: Sequence,
     evidence : CorrelationEvidence, optional
         2D cross peaks (:mod:`elucidate.constraints.correlations`), checked
         under the line assignment; their cost is added to the fit.
+    model : ShiftModel, optional
+        Shift predictor (default: the search predictor, see `rank_structure`).
     """
-    assignment, predicted = rank_structure(mol, peaks)
+    assignment, predicted = rank_structure(mol, peaks, model)
     if math.isinf(assignment.cost):
         return None
     if isinstance(prior, StructurePrior):

@@ -826,6 +826,7 @@ def _identification(data: dict) -> str:
         ("Software", f"elucidate {_e(run['elucidate_version'])}" if run.get("elucidate_version") else missing),
         ("Shift table", (f"{_e(run['shift_table_version'])} (build date + training-data checksum)"
                          if run.get("shift_table_version") else missing)),
+        ("Shift predictor", _e(run["shift_predictor"]) if run.get("shift_predictor") else missing),
     ]
     dl = ('<dl class="facts">' + "".join(f"<dt>{k}</dt><dd>{v}</dd>" for k, v in facts) + "</dl>")
     rows = []

@@ -21,6 +21,8 @@ def run_lines(data: dict) -> list[str]:
         head.append(f"elucidate {run['elucidate_version']}")
     if run.get("shift_table_version"):
         head.append(f"shift table {run['shift_table_version']}")
+    if run.get("shift_predictor"):
+        head.append(f"predictor {run['shift_predictor']}")
     names = [f"{role} {run[key]}" for role, key in (("analyst", "analyst"), ("reviewer", "reviewer"))
              if run.get(key)]
     return [line for line in ("  ".join(head), "  ".join(names)) if line]
