@@ -64,6 +64,7 @@ def run_bench(
     keep: int = 100,
     search: str = "auto",
     correlations: str = "none",
+    rerank: str = "table",
     progress: Callable[[str], None] | None = None,
     on_row: Callable[[dict], None] | None = None,
 ) -> list[dict]:
@@ -79,7 +80,7 @@ def run_bench(
         raise InputError(f"correlations {correlations!r} unknown; use one of {', '.join(CORRELATION_MODES)}")
     rows = []
     cases = read_cases(path, limit, heavy, every)
-    settings = SolveSettings(time_limit=time_limit, top=keep, keep=keep, search=search)
+    settings = SolveSettings(time_limit=time_limit, top=keep, keep=keep, search=search, rerank=rerank)
     for i, case in enumerate(cases, 1):
         formula = parse_formula(case["formula"])
         answer = _canon(case["answer"])

@@ -211,6 +211,10 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
 @click.option("--chains", type=click.IntRange(min=1), default=None, metavar="N",
               help="Stop annealing after N chains: a work budget, so a run that ends by it (not by the "
                    "time limit) gives the same list on any machine. Default: until the time limit.")
+@click.option("--rerank", type=click.Choice(["table", "trees"]), default="table", show_default=True,
+              help="What orders the structures the search keeps: table (the search's own scores) or trees "
+                   "(scored again with the table corrected by the learned trees, sharper shifts and sigmas; "
+                   "docs/prediction.md). The list itself is the search's either way.")
 @_library_option
 @click.option("--neighbours", type=click.IntRange(min=0), default=5, show_default=True,
               help="Reference spectra most similar to the sample's, listed with the result (0: none).")
@@ -234,7 +238,7 @@ def isomers(formula, count, fmt, plausible, valence, charged_nitrogen, require, 
               help="Reviewer's name for the report's sign-off block (blank lines when not given).")
 def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90, valence, charged_nitrogen,
           require, forbid, max_rings, min_ring_size, max_ring_size, allow_all, max_overlap, max_split,
-          scaffold, search_mode, chains, libraries, neighbours, near_alternatives, correlations, match_1h,
+          scaffold, search_mode, chains, rerank, libraries, neighbours, near_alternatives, correlations, match_1h,
           match_13c, sample_id, analyst, reviewer):
     """Rank every structure consistent with a formula and a 13C peak list.
 
@@ -270,7 +274,7 @@ def solve(formula, peaks, solvent, time_limit, top, fmt, output, dept135, dept90
         require=tuple(require), forbid=tuple(forbid), max_rings=max_rings,
         min_ring_size=min_ring_size, max_ring_size=max_ring_size,
         symmetry=SymmetryAllowance(max_overlap, max_split), solvent=solvent,
-        time_limit=time_limit, top=top, scaffold=scaffold, search=search_mode, chains=chains,
+        time_limit=time_limit, top=top, scaffold=scaffold, search=search_mode, chains=chains, rerank=rerank,
         libraries=tuple(libraries), neighbours=neighbours, near_alternatives=near_alternatives,
         match_1h=match_1h, match_13c=match_13c,
     )
@@ -455,7 +459,9 @@ _NO_CARBON_NOTE = "no carbon atoms: nothing to predict"
                    "trees) or auto (the trees when shipped); for old-versus-new runs on the same cases.")
 @click.option("--output", "-o", default=None,
               help="Also write per-case results (JSON lines) here, each as soon as it is done.")
-def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlations, predictor, output):
+@click.option("--rerank", type=click.Choice(["table", "trees"]), default="table", show_default=True,
+              help="What orders the structures each search keeps, as for 'solve --rerank'.")
+def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlations, predictor, rerank, output):
     """Measure elucidation on a case file (JSON lines with formula, peaks, answer).
 
     Prints top-1/top-5/found rates and times per heavy-atom band.
@@ -493,7 +499,7 @@ def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlation
 
     try:
         rows = run_bench(cases, mode=mode, limit=limit, heavy=band, every=every, time_limit=time_limit,
-                         search=search_mode, correlations=correlations, on_row=write_row,
+                         search=search_mode, correlations=correlations, rerank=rerank, on_row=write_row,
                          progress=(lambda msg: click.echo(msg, err=True)) if sys.stderr.isatty() else None)
     finally:
         if sink is not None:

@@ -31,6 +31,7 @@ from .generate import WIDE_VALENCES, AtomType
 from .rank.assignment import LineEntry
 from .rank.calibration import (Calibration, calibrated_scores, listed_basis, listed_chance, listed_is_calibrated,
                                listed_probabilities, load_calibration)
+from .datafiles import data_file
 from .predict.model import load_default_model
 from .rank.scoring import ScoredStructure, StructurePrior, rank_structure, score_structure
 from .search import SearchProblem, rank_key, run_search
@@ -48,6 +49,9 @@ __all__ = [
     "explain_constraints",
     "approximate_cost",
 ]
+
+#: What ranks the kept structures: the search's table scores, or the table + learned trees.
+RERANK_MODES = ("table", "trees")
 
 #: Search modes: cost-bounded strategies first and annealing when they cannot
 #: finish; cost-bounded only (every statement a proof); annealing only.
@@ -92,8 +96,13 @@ class SolveSettings:
     #: matching tolerances (ppm) tying 2D cross peaks to the 13C lines: 1H, 13C
     match_1h: float = H_TOLERANCE
     match_13c: float = C_TOLERANCE
+    #: what ranks the structures a search keeps: "table" (the search's own scores) or "trees"
+    #: (re-scored with the table corrected by the learned trees; docs/prediction.md)
+    rerank: str = "table"
 
     def __post_init__(self):
+        if self.rerank not in RERANK_MODES:
+            raise InputError(f"--rerank {self.rerank!r} unknown; use one of {', '.join(RERANK_MODES)}")
         if not (self.time_limit > 0):
             raise InputError(f"--time-limit must be a positive number of seconds, got {self.time_limit}")
         if self.top < 1:
@@ -292,9 +301,14 @@ def solve(
     )
     outcome = run_search(problem)
 
-    ranked = refine_ranking(outcome.scored, peaks.peaks, prior, evidence, settings.keep)
+    if settings.rerank == "trees":
+        ranked = refine_ranking(outcome.scored, peaks.peaks, prior, evidence, settings.keep,
+                                model=_trees_model())
+        calibration = load_calibration(data_file(TREES_CALIBRATION))
+    else:
+        ranked = sorted(outcome.scored, key=rank_key)[: settings.keep]
+        calibration = load_calibration()
     status, cost_bound = outcome.status, outcome.cost_bound
-    calibration = load_calibration()
     candidates = _finalise(ranked, settings.top, calibration, outcome.sources)
     margin = None
     if candidates and cost_bound is not None and rule is not None:
@@ -343,6 +357,18 @@ def solve(
         reference_neighbours=tuple(_neighbours(peaks, formula, settings, library)),
         correlations=evidence.rows if evidence is not None else (),
     )
+
+
+#: Calibration (score weights) for rankings re-scored with the learned trees.
+TREES_CALIBRATION = "calibration_trees.json"
+
+
+def _trees_model():
+    model = load_default_model()
+    if model.trees is None:
+        raise InputError("--rerank trees needs the learned correction (shift_trees.npz), which is not "
+                         "installed; rebuild it with `elucidate build-trees` or use --rerank table")
+    return model
 
 
 def refine_ranking(scored: Sequence[ScoredStructure], peaks, prior, evidence, keep: int,

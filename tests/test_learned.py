@@ -150,28 +150,32 @@ def test_trees_beat_the_table_on_a_bench_sample(tmp_path):
 
 
 @shipped
-def test_solve_ranks_the_kept_structures_with_the_trees():
-    """The search scores with the table; the kept structures are re-scored with
-    table + trees (pipeline.refine_ranking): the listed predictions are the
-    trees' and the list holds the same structures the search kept."""
+def test_rerank_trees_scores_the_kept_structures_with_the_trees():
+    """The search scores with the table; with rerank="trees" the kept structures
+    are re-scored with table + trees (pipeline.refine_ranking): the listed
+    predictions are the trees' and the list holds the same structures."""
     from elucidate.pipeline import SolveSettings, solve
     from elucidate.predict import predict_smiles
 
     # 4-methylacetophenone, lines from memory of common reference data (CDCl3)
     peaks = "197.8 C, 143.8 C, 134.8 C, 129.2 CH, 128.4 CH, 26.5 CH3, 21.6 CH3"
-    settings = SolveSettings(time_limit=20, top=50, keep=50)
-    result = solve("C9H10O", peaks, settings)
+    result = solve("C9H10O", peaks, SolveSettings(time_limit=20, top=50, keep=50, rerank="trees"))
     top = result.candidates[0]
     assert top.smiles == "CC(=O)c1ccc(C)cc1"
     by_atom = {a.index: a for a in predict_smiles(top.smiles)}
     for atom, h, shift, sigma in top.predicted:
         assert round(shift, 2) == by_atom[atom].shift and round(sigma, 2) == by_atom[atom].sigma
-    # the same structures as the table alone would list (the search decides what is listed)
-    from elucidate.predict.model import use_predictor
-
-    use_predictor("table")
-    try:
-        table_result = solve("C9H10O", peaks, settings)
-    finally:
-        use_predictor("auto")
+    # the same structures as the table's ranking lists (the search decides what is listed)
+    table_result = solve("C9H10O", peaks, SolveSettings(time_limit=20, top=50, keep=50))
     assert {c.smiles for c in table_result.candidates} == {c.smiles for c in result.candidates}
+    table_sigma = {a: s for a, _, _, s in table_result.candidates[0].predicted}
+    assert any(abs(table_sigma[a] - s) > 0.05 for a, _, _, s in top.predicted)  # really another predictor
+
+
+def test_rerank_is_checked():
+    from elucidate.errors import InputError
+    from elucidate.pipeline import SolveSettings
+
+    assert SolveSettings().rerank == "table"
+    with pytest.raises(InputError, match="rerank"):
+        SolveSettings(rerank="gnn")

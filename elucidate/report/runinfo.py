@@ -88,13 +88,12 @@ class RunInfo:
     def to_dict(self) -> dict:
         """The ``run`` block: this record plus the tool and shift-table versions."""
         from .. import __version__
-        from ..predict.model import default_predictor_label, default_table_version
+        from ..predict.model import default_table_version
 
         return {
             "timestamp_utc": format_utc(self.timestamp),
             "elucidate_version": __version__,
             "shift_table_version": default_table_version(),
-            "shift_predictor": default_predictor_label(),
             "sample_id": self.sample_id,
             "analyst": self.analyst,
             "reviewer": self.reviewer,

@@ -79,8 +79,16 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
     if spectrum is not None and not isinstance(spectrum, SpectrumTrace):
         raise InputError(f"spectrum must be a SpectrumTrace, got {type(spectrum).__name__}")
     s = result.settings
+    run_block = run.to_dict()
+    # what ordered the kept structures (docs/prediction.md)
+    if s.rerank == "trees":
+        from ..predict.model import default_predictor_label
+
+        run_block["shift_predictor"] = default_predictor_label()
+    else:
+        run_block["shift_predictor"] = "table"
     data = {
-        "run": run.to_dict(),
+        "run": run_block,
         "formula": result.formula.hill,
         "dbe": result.dbe,
         "complete": result.complete,
@@ -98,6 +106,7 @@ def result_to_dict(result: SolveResult, *, run: RunInfo | None = None,
         "settings": {
             "solvent": s.solvent,
             "time_limit": s.time_limit,
+            "rerank": s.rerank,
             "top": s.top,
             "valences": {el: list(v) for el, v in s.valences},
             "charged_nitrogen": s.charged_nitrogen,
