@@ -179,3 +179,26 @@ def test_rerank_is_checked():
     assert SolveSettings().rerank == "table"
     with pytest.raises(InputError, match="rerank"):
         SolveSettings(rerank="gnn")
+
+
+def test_sigma_calibration_recovers_a_normal_scale_and_widens_heavy_tails():
+    """Errors drawn as |N(0, s)| for known s: the map should stay close to
+    sigma = s (68.3 % within one sigma, 95.4 % within two: normal
+    distribution quantiles, common knowledge; the grid may trade a little
+    offset for scale to hit 68 / 95 exactly).  Student-t errors (3 degrees
+    of freedom, heavier tails) need a wider map for the two-sigma share."""
+    from elucidate.predict.train import sigma_calibration
+
+    rng = np.random.default_rng(11)
+    s = rng.uniform(0.5, 4.0, 40000)
+    offset, scale = sigma_calibration(np.abs(rng.normal(0.0, s)), s)
+    sig = offset + scale * s
+    assert offset <= 0.5 and 0.8 <= scale <= 1.1
+    e = np.abs(rng.normal(0.0, s))
+    assert abs(np.mean(e <= sig) - 0.683) < 0.03 and abs(np.mean(e <= 2 * sig) - 0.954) < 0.02
+    t_err = np.abs(rng.standard_t(3, 40000)) * s
+    o2, k2 = sigma_calibration(t_err, s)
+    sig2 = o2 + k2 * s
+    c1, c2 = np.mean(t_err <= sig2), np.mean(t_err <= 2 * sig2)
+    # the worse miss in tolerance units is the smallest the map allows; both stay near their targets
+    assert 0.60 <= c1 <= 0.80 and 0.88 <= c2 <= 0.97
