@@ -3,8 +3,10 @@
 Predictions come from a table of HOSE-style environment codes (Bremser,
 *Anal. Chim. Acta* 1978, 103, 355 — from memory) learned from the open
 nmrshiftdb2 data (Steinbeck, Krause, Kuhn, *J. Chem. Inf. Comput. Sci.* 2003,
-43, 1733 — from memory), blended with an additive ridge-regression fallback;
-see `elucidate.predict.model`.  Predicted shifts are hypotheses with an
+43, 1733 — from memory), blended with an additive ridge-regression fallback
+(see `elucidate.predict.model`), and corrected by gradient-boosted trees
+learned on leave-one-constitution-out table statistics
+(`elucidate.predict.learned`) when the package ships them.  Predicted shifts are hypotheses with an
 uncertainty, not measurements.
 
 Public API: `AtomShift`, `predict_mol`, `predict_smiles`.

@@ -350,7 +350,7 @@ def build_trees_command(data_path, output_path, table_path, seed, rounds, cache_
     leave-one-constitution-out table statistics and environment descriptors
     for every training carbon, and fits gradient-boosted trees for the
     correction and for the per-carbon uncertainty.  Deterministic given the
-    seed; about 25 minutes on 2 cores.
+    seed; about 8 minutes on 2 cores.
 
     Example: elucidate build-trees --data ../shared/data/train_spectra.jsonl.gz
     """
