@@ -27,7 +27,7 @@ __all__ = ["solve", "check", "predict", "to_dict"]
 _SOLVE_OPTIONS = (
     "charged_nitrogen", "allow_all", "max_rings", "min_ring_size", "max_ring_size",
     "environment_margin", "keep", "search", "chains", "libraries", "neighbours", "workers",
-    "near_alternatives", "match_1h", "match_13c",
+    "near_alternatives", "match_1h", "match_13c", "rerank",
 )
 
 
@@ -109,7 +109,9 @@ def solve(formula, peaks, *, solvent: str | None = None, time_limit: float = 60.
         libraries), ``neighbours`` (reference spectra listed), ``workers``,
         ``near_alternatives`` (fill a short exhaustive list up to this many with structures that
         need one stated assumption set aside; 0: never), ``match_1h`` and ``match_13c``
-        (tolerances in ppm tying 2D cross peaks to the lines).
+        (tolerances in ppm tying 2D cross peaks to the lines), ``rerank`` (``"table"``, the
+        default, or ``"trees"``: the kept structures re-scored with the learned correction;
+        docs/prediction.md).
 
     Returns
     -------
