@@ -85,7 +85,8 @@ def run_bench(
         formula = parse_formula(case["formula"])
         answer = _canon(case["answer"])
         peaks = peaks_from_records(_records_for_mode(case["peaks"], mode))
-        row = {"id": case["id"], "formula": formula.hill, "heavy_atoms": formula.heavy_atoms, "answer": answer}
+        row = {"id": case["id"], "formula": formula.hill, "heavy_atoms": formula.heavy_atoms, "answer": answer,
+               "rerank": rerank}
         answer_mol = Chem.MolFromSmiles(case["answer"])
         if answer_mol is not None:
             verdicts = explain_constraints(answer_mol, formula, peaks, settings)

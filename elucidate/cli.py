@@ -453,15 +453,11 @@ _NO_CARBON_NOTE = "no carbon atoms: nothing to predict"
               help="2D correlations given to each case: synthetic HSQC + HMBC (+ COSY) made from the answer "
                    "(placeholder 1H shifts, 25 % of HMBC dropped, 5 % 4-bond extras; synthetic, not measured: "
                    "docs/correlations.md).")
-@click.option("--predictor", type=click.Choice(["auto", "table", "table+trees"]), default="auto",
-              show_default=True,
-              help="Shift predictor: table (environment table alone), table+trees (corrected by the learned "
-                   "trees) or auto (the trees when shipped); for old-versus-new runs on the same cases.")
 @click.option("--output", "-o", default=None,
               help="Also write per-case results (JSON lines) here, each as soon as it is done.")
 @click.option("--rerank", type=click.Choice(["table", "trees"]), default="table", show_default=True,
               help="What orders the structures each search keeps, as for 'solve --rerank'.")
-def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlations, predictor, rerank, output):
+def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlations, rerank, output):
     """Measure elucidation on a case file (JSON lines with formula, peaks, answer).
 
     Prints top-1/top-5/found rates and times per heavy-atom band.
@@ -486,13 +482,7 @@ def bench(cases, mode, limit, heavy, every, time_limit, search_mode, correlation
         except OSError as exc:
             raise InputError(f"cannot write output file {output!r}: {exc.strerror}") from None
 
-    from .predict.model import load_default_model, use_predictor
-
-    use_predictor(predictor)
-    predictor_name = load_default_model().name
-
     def write_row(row):
-        row["predictor"] = predictor_name
         if sink is not None:
             sink.write(json.dumps(row) + "\n")
             sink.flush()

@@ -372,24 +372,19 @@ def _trees_model():
 
 
 def refine_ranking(scored: Sequence[ScoredStructure], peaks, prior, evidence, keep: int,
-                   model=None) -> list[ScoredStructure]:
-    """The ``keep`` best structures of a search, re-scored with the best predictor.
+                   model) -> list[ScoredStructure]:
+    """The ``keep`` best structures of a search, re-scored with ``model``.
 
     Every search strategy scores with the fast environment table
     (:func:`elucidate.predict.model.load_search_model`); the structures it
-    keeps are then scored again, in full, with the best shipped predictor
-    (the table corrected by the learned trees, :mod:`elucidate.predict.learned`)
-    and ranked by that score.  Which structures are listed is the search's
+    keeps are then scored again, in full, with ``model`` (the table
+    corrected by the learned trees, :mod:`elucidate.predict.learned`) and
+    ranked by that score.  Which structures are listed is the search's
     business; their order, assignments, uncertainties and probabilities
-    come from the better predictor.  Without the learned correction the
-    search's scores are kept as they are.
+    come from the better predictor.
     """
-    first = sorted(scored, key=rank_key)[:keep]
-    model = model or load_default_model()
-    if model.trees is None:
-        return first
     out = []
-    for s in first:
+    for s in sorted(scored, key=rank_key)[:keep]:
         mol = Chem.MolFromSmiles(s.smiles)
         again = score_structure(s.smiles, mol, peaks, prior, smiles_written=False, evidence=evidence,
                                 model=model) if mol is not None else None

@@ -28,9 +28,9 @@ Usage::
     python scripts/predictor_diagnostics.py ../shared/data/bench_cases.jsonl \\
         [--table other_table.npz] [--label NAME] [--png parity.png] [--json out.json]
 
-The predictor is whatever `load_model` returns; anything with the
-``predict_mol(mol) -> [(atom_index, hydrogens, shift, sigma, sphere), ...]``
-signature works.
+The predictor is `elucidate.predict.model.load_model(--table, --trees,
+--predictor)`; the matching is that of `elucidate bench-shifts`
+(`elucidate.predict.evaluate.case_groups` and `match_errors`).
 """
 
 from __future__ import annotations
@@ -41,7 +41,6 @@ import sys
 from pathlib import Path
 
 import numpy as np
-from rdkit import Chem, rdBase
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))  # for _png when run as a script
 
@@ -50,9 +49,8 @@ from _png import write_png  # noqa: E402
 from elucidate.cases import read_cases  # noqa: E402
 from elucidate.errors import InputError  # noqa: E402
 from elucidate.predict.carbon_classes import carbon_class, class_breakdown  # noqa: E402
-
-#: DEPT multiplicity -> hydrogens on the carbon.
-MULT_H = {"C": 0, "CH": 1, "CH2": 2, "CH3": 3}
+from elucidate.predict.evaluate import case_groups, match_errors  # noqa: E402
+from elucidate.predict.model import load_model  # noqa: E402
 
 #: Parity plot: shift range (ppm) of both axes, tick spacing, image size.
 PLOT_RANGE = (0.0, 230.0)
@@ -63,121 +61,9 @@ IMAGE_SIZE = 600
 N_WORST = 25
 
 
-# --------------------------------------------------------------------------- model
-
-def load_model(table_path=None, predictor="auto", trees_path=None):
-    """The predictor to diagnose.
-
-    Parameters
-    ----------
-    table_path : path-like, optional
-        A shift table (``.npz``) for `elucidate.predict.model.ShiftModel.load`;
-        None for the shipped table.
-    predictor : {"auto", "table", "table+trees"}
-        ``table``: the table alone; ``table+trees``: corrected by the learned
-        trees; ``auto``: the trees when a trees file is there.
-    trees_path : path-like, optional
-        A learned correction (``shift_trees.npz``); None for the shipped one.
-
-    Returns
-    -------
-    object
-        Anything with ``predict_mol(mol)`` returning
-        ``(atom_index, hydrogens, shift, sigma, sphere)`` tuples.
-
-    Raises
-    ------
-    InputError
-        If a given file is missing.
-    """
-    from elucidate.predict.learned import LearnedCorrection
-    from elucidate.predict.model import ShiftModel, default_table_path, default_trees_path
-
-    for path, what in ((table_path, "shift table"), (trees_path, "learned correction")):
-        if path is not None and not Path(path).is_file():
-            raise InputError(f"{what} {str(path)!r} not found; give the path of a .npz file")
-    model = ShiftModel.load(table_path or default_table_path())
-    trees = Path(trees_path) if trees_path else default_trees_path()
-    if predictor == "table+trees" or (predictor == "auto" and trees.is_file()):
-        if not trees.is_file():
-            raise InputError(f"learned correction {str(trees)!r} not found; build it with "
-                             "`elucidate build-trees` or use --predictor table")
-        model = model.with_trees(LearnedCorrection.load(trees))
-    return model
-
-
-def predictor_name(model) -> str:
-    """The model's ``name`` (attribute, property or method) or its class name."""
-    name = getattr(model, "name", None)
-    if callable(name):
-        name = name()
-    return str(name) if name else type(model).__name__
-
-
-# ------------------------------------------------------------------------ matching
-
-def match_with_atoms(predicted, observed):
-    """Sorted matching within groups, keeping each prediction's atom index.
-
-    Parameters
-    ----------
-    predicted : dict
-        group -> list of ``(shift, sigma, sphere, atom_index)``.
-    observed : dict
-        group -> list of observed shifts (expanded by count).
-
-    Returns
-    -------
-    list of tuple
-        ``(atom_index, predicted shift, observed shift)`` per carbon, groups
-        in the order ``evaluate.match_errors`` uses (sorted by ``str``).
-
-    Raises
-    ------
-    InputError
-        If a group's sizes differ.
-    """
-    out = []
-    for g in sorted(set(predicted) | set(observed), key=str):
-        p = sorted(predicted.get(g, []))
-        o = sorted(observed.get(g, []))
-        if len(p) != len(o):
-            raise InputError(
-                f"multiplicity group {g!r}: {len(p)} carbons in the structure but "
-                f"{len(o)} peaks after expanding counts; fix the peak counts")
-        out.extend((idx, sh, ob) for (sh, _sg, _s, idx), ob in zip(p, o))
-    return out
-
-
-def _groups(preds, peaks, case_id):
-    """Predicted and observed shifts per multiplicity group, as evaluate.py forms them."""
-    has_mult = all(p.get("mult") for p in peaks)
-    predicted, observed = {}, {}
-    for idx, h, sh, sg, s in preds:
-        predicted.setdefault(h if has_mult else "all", []).append((sh, sg, s, idx))
-    for peak in peaks:
-        if has_mult and peak["mult"] not in MULT_H:
-            raise InputError(
-                f"case {case_id}: multiplicity {peak['mult']!r} is not one of C, CH, CH2, CH3; "
-                "fix the peak list")
-        g = MULT_H[peak["mult"]] if has_mult else "all"
-        observed.setdefault(g, []).extend([float(peak["shift"])] * int(peak.get("count", 1)))
-    return predicted, observed
-
-
-def _check_against_evaluate(predicted, observed, rows, case_id):
-    """The errors must equal those of ``evaluate.match_errors`` (same matching)."""
-    from elucidate.predict.evaluate import match_errors
-
-    plain = {g: [(sh, sg, s) for sh, sg, s, _ in v] for g, v in predicted.items()}
-    theirs = [e for e, _, _ in match_errors(plain, observed)]
-    ours = [sh - ob for _, sh, ob in rows]
-    if theirs != ours:
-        raise RuntimeError(f"case {case_id}: matching differs from evaluate.match_errors")
-
-
 def case_rows(model, case):
-    """Matched carbons of one case with their classes.
+    """Matched carbons of one case with their classes (the matching of
+    `elucidate.predict.evaluate`: sorted within multiplicity groups).
 
     Returns
     -------
@@ -185,18 +71,15 @@ def case_rows(model, case):
         ``{"case", "atom", "class", "predicted", "observed"}`` per carbon.
     """
     case_id = case.get("id")
-    with rdBase.BlockLogs():
-        mol = Chem.MolFromSmiles(case["answer"])
-    if mol is None:
-        raise InputError(f"case {case_id}: answer SMILES {case['answer']!r} does not parse; fix the case file")
-    predicted, observed = _groups(model.predict_mol(mol), case["peaks"], case_id)
+    mol, predicted, observed = case_groups(model, case)
     try:
-        rows = match_with_atoms(predicted, observed)
+        matched = match_errors(predicted, observed)
     except InputError as exc:
         raise InputError(f"case {case_id}: {exc}") from None
-    _check_against_evaluate(predicted, observed, rows, case_id)
+    by_atom = {idx: sh for group in predicted.values() for sh, _sg, _s, idx in group}
     return [{"case": case_id, "atom": int(idx), "class": carbon_class(mol, int(idx)),
-             "predicted": float(sh), "observed": float(ob)} for idx, sh, ob in rows]
+             "predicted": float(by_atom[idx]), "observed": round(float(by_atom[idx] - err), 6)}
+            for err, _sg, _s, idx in matched]
 
 
 # ------------------------------------------------------------------------- summary
@@ -396,11 +279,11 @@ def run(cases_path, table=None, label=None, png=None, json_path=None, every=1, p
     if isinstance(every, bool) or not isinstance(every, int) or every < 1:
         raise InputError(f"--every must be a positive integer, got {every!r}; use 1 to keep every case")
     cases = read_cases(cases_path, required=("answer", "peaks"), every=every)
-    model = load_model(table, predictor, trees)
+    model = load_model(table, trees, predictor)
     rows = [row for case in cases for row in case_rows(model, case)]
     label = label or (Path(table).stem if table else "shipped model")
     summary = summarize(rows, label, str(table) if table else "shipped", len(cases))
-    summary["predictor"] = predictor_name(model)
+    summary["predictor"] = model.name
     print(markdown_table(summary))
     if png:
         o = summary["overall"]

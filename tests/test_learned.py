@@ -19,7 +19,7 @@ from rdkit import Chem
 from elucidate.predict.codes import _shell_steps, graph_from_mol, sphere_codes
 from elucidate.predict.learned import (DESCRIPTOR_NAMES, FEATURE_NAMES, LearnedCorrection,
                                        TreeEnsemble, atom_descriptors)
-from elucidate.predict.model import ShiftModel, default_table_path, default_trees_path
+from elucidate.predict.model import ShiftModel, default_table_path, default_trees_path, load_model
 
 BENCH = Path(__file__).resolve().parents[2] / "shared" / "data" / "bench_cases.jsonl"
 
@@ -139,9 +139,8 @@ def test_trees_beat_the_table_on_a_bench_sample(tmp_path):
     lines = BENCH.read_text(encoding="utf-8").splitlines()[::6]
     sample = tmp_path / "sample.jsonl"
     sample.write_text("\n".join(lines) + "\n", encoding="utf-8")
-    table = evaluate_cases(sample, model=ShiftModel.load(default_table_path()))
-    both = evaluate_cases(sample, model=ShiftModel.load(default_table_path()).with_trees(
-        LearnedCorrection.load(default_trees_path())))
+    table = evaluate_cases(sample, model=load_model(kind="table"))
+    both = evaluate_cases(sample, model=load_model(kind="table+trees"))
     assert both["predictor"] == "table+trees" and table["predictor"] == "table"
     assert both["overall"]["mae"] < table["overall"]["mae"] - 0.03
     # sigma means what it says (issue 14: 68 +- 5 % within 1 sigma, 95 +- 3 % within 2)

@@ -556,7 +556,7 @@ def _loo_predict(corpus, y, valid, settings, cross_fit, max_sphere=MAX_SPHERE, m
                                     use_codes=False)
         fb = _fallback_predict(corpus, base, w, hm)
     alpha, sigma, pred = _calibrate(sphere, med, cnt, up, fb, y, valid, spr, corpus.hydrogens)
-    return pred, alpha, sigma, sphere
+    return pred, alpha, sigma, sphere, fb
 
 
 def _sphere_schedule(settings):
@@ -666,7 +666,7 @@ def build_table(data_path, output_path=None, limit=None, settings=None,
             progress(f"final re-assignment (cross-fitted model): {history[-1]['changed']} carbons")
 
     # calibration on leave-one-constitution-out predictions
-    loo_pred, alpha, sigma, loo_sphere = _loo_predict(corpus, y, valid, settings, cross_fit=True)
+    loo_pred, alpha, sigma, loo_sphere, _ = _loo_predict(corpus, y, valid, settings, cross_fit=True)
     loo_err = np.abs(loo_pred - y)
 
     # final model on everything

@@ -17,7 +17,6 @@ Krause, Kuhn, *J. Chem. Inf. Comput. Sci.* 2003, 43, 1733 (from memory).
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import click
 import numpy as np
@@ -25,9 +24,9 @@ from rdkit import Chem, rdBase
 
 from ..cases import BANDS, read_cases
 from ..errors import InputError
-from .model import PREDICTORS, ShiftModel, default_table_path, default_trees_path, load_default_model
+from .model import PREDICTORS, ShiftModel, load_default_model, load_model
 
-__all__ = ["BANDS", "match_errors", "evaluate_cases", "predictor_bench_command"]
+__all__ = ["BANDS", "case_groups", "match_errors", "evaluate_cases", "predictor_bench_command"]
 
 #: Heavy-atom bands reported separately (inclusive bounds).
 
@@ -40,15 +39,16 @@ def match_errors(predicted, observed):
     Parameters
     ----------
     predicted : dict
-        group -> list of (predicted shift, sigma, sphere).
+        group -> list of (predicted shift, sigma, sphere, ...); items after
+        the shift ride along (e.g. the atom index, see `case_groups`).
     observed : dict
         group -> list of observed shifts (expanded by count).
 
     Returns
     -------
     list of tuple
-        ``(error, sigma, sphere)`` per matched carbon (error = predicted -
-        observed).
+        ``(error, sigma, sphere, ...)`` per matched carbon (error = predicted -
+        observed; the items after the shift as given).
 
     Raises
     ------
@@ -63,25 +63,46 @@ def match_errors(predicted, observed):
             raise InputError(
                 f"multiplicity group {g!r}: {len(p)} carbons in the structure but "
                 f"{len(o)} peaks after expanding counts; fix the peak counts")
-        for (sh, sg, s), ob in zip(p, o):
-            out.append((sh - ob, sg, s))
+        for (sh, *rest), ob in zip(p, o):
+            out.append((sh - ob, *rest))
     return out
 
 
-def _case_errors(model, case, use_mult=True):
+def case_groups(model, case, use_mult=True):
+    """A case's answer predicted and its peaks, per multiplicity group.
+
+    Returns
+    -------
+    mol : rdkit.Chem.Mol
+        The answer.
+    predicted : dict
+        group -> list of ``(shift, sigma, sphere, RDKit atom index)``.
+    observed : dict
+        group -> list of observed shifts, expanded by ``count``.
+
+    Groups are the H counts 0-3 when every peak carries a multiplicity (and
+    ``use_mult``), else one group ``"all"``.
+    """
     with rdBase.BlockLogs():  # our error names the case instead of RDKit's parser log
         mol = Chem.MolFromSmiles(case["answer"])
     if mol is None:
         raise InputError(f"case {case.get('id')}: answer SMILES does not parse")
-    preds = model.predict_mol(mol)
     has_mult = use_mult and all(p.get("mult") for p in case["peaks"])
     predicted, observed = {}, {}
-    for _, h, sh, sg, s in preds:
-        predicted.setdefault(h if has_mult else "all", []).append((sh, sg, s))
+    for idx, h, sh, sg, s in model.predict_mol(mol):
+        predicted.setdefault(h if has_mult else "all", []).append((sh, sg, s, idx))
     for peak in case["peaks"]:
+        if has_mult and peak["mult"] not in _MULT_H:
+            raise InputError(f"case {case.get('id')}: multiplicity {peak['mult']!r} is not one of "
+                             "C, CH, CH2, CH3; fix the peak list")
         g = _MULT_H[peak["mult"]] if has_mult else "all"
         observed.setdefault(g, []).extend([float(peak["shift"])] * int(peak.get("count", 1)))
-    return mol.GetNumHeavyAtoms(), match_errors(predicted, observed)
+    return mol, predicted, observed
+
+
+def _case_errors(model, case, use_mult=True):
+    mol, predicted, observed = case_groups(model, case, use_mult)
+    return mol.GetNumHeavyAtoms(), [e[:3] for e in match_errors(predicted, observed)]
 
 
 def _summary(errs):
@@ -158,14 +179,6 @@ def predictor_bench_command(cases, table, trees, predictor, no_mult):
 
     Example: elucidate bench-shifts ../shared/data/bench_cases.jsonl --predictor table
     """
-    model = ShiftModel.load(table or default_table_path())
-    trees_path = trees or default_trees_path()
-    if predictor == "table+trees" or (predictor == "auto" and (trees or Path(trees_path).exists())):
-        if not Path(trees_path).exists():
-            raise InputError(f"learned correction {trees_path} not found; build it with "
-                             "`elucidate build-trees` or use --predictor table")
-        from .learned import LearnedCorrection
-
-        model = model.with_trees(LearnedCorrection.load(trees_path))
+    model = load_model(table, trees, predictor)
     result = evaluate_cases(cases, model=model, use_mult=not no_mult)
     click.echo(json.dumps(result, indent=2))

@@ -67,6 +67,8 @@ def _descriptor_names():
 
 
 DESCRIPTOR_NAMES = _descriptor_names()
+#: Positions of the first entry of each block of `DESCRIPTOR_NAMES`.
+_AT = {name: j for j, name in enumerate(DESCRIPTOR_NAMES)}
 
 
 def _token_class(tok: str) -> int:
@@ -104,12 +106,12 @@ def atom_descriptors(graph, i: int, shells) -> list:
     for _, b in adj[i]:
         j = _BOND_INDEX.get(b)
         if j is not None:
-            out[4 + j] += 1
-    pos = 8
+            out[_AT["centre_single"] + j] += 1
+    pos = _AT["d1_C"]
     n_el = len(ELEMENT_CLASSES)
-    bond_pos = pos + DESCRIPTOR_DISTANCE * n_el
-    extra = bond_pos + BOND_DISTANCE * len(_BONDS)
-    ring_pos = extra + 5
+    bond_pos = _AT["d1_single"]
+    extra = _AT["d1_hydrogens"]
+    ring_pos = _AT["d1_atoms"]
     for k, (found, inner, multi) in enumerate(shells[:MAX_SPHERE], start=1):
         if k <= DESCRIPTOR_DISTANCE:
             base = pos + (k - 1) * n_el

@@ -48,9 +48,9 @@ __all__ = [
     "PREDICTORS",
     "default_trees_path",
     "load_default_model",
+    "load_model",
     "load_search_model",
     "table_version",
-    "use_predictor",
 ]
 
 #: Spheres whose codes carry a fallback increment of their own.
@@ -228,12 +228,9 @@ class ShiftModel:
             sig = (0.5 * sig * sig + 0.5 * spread * spread) ** 0.5
         return shift, max(sig, _SIGMA_FLOOR)
 
-    def sphere_stats(self, codes):
+    def _sphere_stats(self, keys: "_CodeKeys"):
         """Per sphere 0..MAX_SPHERE: median, count and spread of the code's
         examples (NaN, 0, NaN where the code is not in the table)."""
-        return self._sphere_stats(_CodeKeys(codes))
-
-    def _sphere_stats(self, keys: "_CodeKeys"):
         nan = float("nan")
         med = [nan] * (MAX_SPHERE + 1)
         cnt = [0] * (MAX_SPHERE + 1)
@@ -247,7 +244,7 @@ class ShiftModel:
                 spr[s] = self._spread[i]
         return med, cnt, spr
 
-    def predict_graph(self, graph, with_source: bool = False):
+    def predict_graph(self, graph):
         """Predict all carbons of a `MolGraph`.
 
         With a learned correction attached (`with_trees`), the carbons not yet
@@ -260,9 +257,9 @@ class ShiftModel:
         Returns
         -------
         list of tuple
-            ``(local index, shift, sigma, sphere)`` per carbon, ascending
-            local index; with ``with_source``, a fifth item says which
-            predictor gave the value (``"table"`` or ``"table+trees"``).
+            ``(local index, shift, sigma, sphere, source)`` per carbon,
+            ascending local index; ``source`` says which predictor gave the
+            value (``"table"`` or ``"table+trees"``).
         """
         out = []
         cache = self._cache
@@ -282,8 +279,8 @@ class ShiftModel:
                 s, m, n, spread, up = self._lookup(keys)
                 fb = self._fallback(feats, keys, graph.hydrogens[i])
                 shift, sig = self.combine(s, m, n, spread, up, fb, graph.hydrogens[i])
-                whole = s == MAX_SPHERE and not shells[-1][0]  # whole molecule within sphere 5, in the table
-                if trees is not None and not whole:
+                # not for a carbon whose whole molecule lies within sphere 5 and is in the table
+                if trees is not None and not (s == MAX_SPHERE and not shells[-1][0]):
                     med, cnt, spr = self._sphere_stats(keys)
                     pending.append((len(out), i, key, s, shift,
                                     trees.features(graph, i, shells, shift, fb, s, med, cnt, spr)))
@@ -293,7 +290,7 @@ class ShiftModel:
                 if len(cache) > 500_000:
                     cache.clear()
                 cache[key] = hit
-            out.append((i, hit[0], hit[1], hit[2], hit[3]))
+            out.append((i, *hit))
         if pending:
             shifts, sigmas = trees.correct([p[4] for p in pending], [p[5] for p in pending])
             if len(cache) > 500_000:
@@ -301,9 +298,7 @@ class ShiftModel:
             for (pos, i, key, s, _, _), sh, sg in zip(pending, shifts.tolist(), sigmas.tolist()):
                 cache[key] = (sh, sg, s, "table+trees")
                 out[pos] = (i, sh, sg, s, "table+trees")
-        if with_source:
-            return out
-        return [o[:4] for o in out]
+        return out
 
     def predict_mol(self, mol, with_source: bool = False):
         """`predict_graph` on an RDKit molecule; indices are RDKit indices.
@@ -314,9 +309,9 @@ class ShiftModel:
         graph = graph_from_mol(mol)
         if with_source:
             return [(graph.atom_index[i], graph.hydrogens[i], sh, sg, s, src)
-                    for i, sh, sg, s, src in self.predict_graph(graph, True)]
+                    for i, sh, sg, s, src in self.predict_graph(graph)]
         return [(graph.atom_index[i], graph.hydrogens[i], sh, sg, s)
-                for i, sh, sg, s in self.predict_graph(graph)]
+                for i, sh, sg, s, _ in self.predict_graph(graph)]
 
 
 #: code string -> `code_key` (a pure function; shallow codes recur in every
@@ -349,9 +344,8 @@ class _CodeKeys:
 
 _DEFAULT = None
 _TABLE = None
-#: Which predictor `load_default_model` gives: "auto" (trees when shipped), "table" or "table+trees".
-_DEFAULT_KIND = "auto"
 
+#: Predictor choices of `load_model`: the trees when present, the table alone, the table + trees.
 PREDICTORS = ("auto", "table", "table+trees")
 
 
@@ -362,62 +356,62 @@ def default_trees_path() -> Path:
     return data_file("shift_trees.npz")
 
 
-def use_predictor(kind: str) -> None:
-    """Choose the predictor `load_default_model` returns in this process.
+def load_model(table_path=None, trees_path=None, kind: str = "auto") -> ShiftModel:
+    """A shift table, with a learned correction attached as ``kind`` says.
 
     Parameters
     ----------
+    table_path, trees_path : path-like, optional
+        Default: the shipped ``shift_table.npz`` and ``shift_trees.npz``.
     kind : {"auto", "table", "table+trees"}
         ``"table"``: the environment table alone; ``"table+trees"``: the
         table corrected by the learned trees (error if they are missing);
-        ``"auto"``: the trees when the package ships them.
+        ``"auto"``: the trees when the file is there.
+
+    Raises
+    ------
+    InputError
+        For an unknown ``kind`` or a missing file.
     """
-    global _DEFAULT_KIND, _DEFAULT
+    from ..errors import InputError
+
     if kind not in PREDICTORS:
-        from ..errors import InputError
-
         raise InputError(f"unknown predictor {kind!r}; choose one of {', '.join(PREDICTORS)}")
-    if kind != _DEFAULT_KIND:
-        _DEFAULT_KIND = kind
-        _DEFAULT = None
+    table_path = Path(table_path) if table_path else default_table_path()
+    if not table_path.is_file():
+        raise InputError(f"the shift table {table_path} is missing; reinstall the package or "
+                         "rebuild it with `elucidate build-table --data TRAIN.jsonl.gz`")
+    model = ShiftModel.load(table_path)
+    trees_path = Path(trees_path) if trees_path else default_trees_path()
+    if kind == "table+trees" or (kind == "auto" and trees_path.is_file()):
+        if not trees_path.is_file():
+            raise InputError(f"the learned correction {trees_path} is missing; build it with "
+                             "`elucidate build-trees --data TRAIN.jsonl.gz` or use the table alone")
+        from .learned import LearnedCorrection
 
-
-def _load_table() -> ShiftModel:
-    global _TABLE
-    if _TABLE is None:
-        path = default_table_path()
-        if not path.exists():
-            from ..errors import InputError
-
-            raise InputError(
-                f"the shift table {path} is missing; reinstall the package or "
-                "rebuild it with `elucidate build-table --data TRAIN.jsonl.gz`"
-            )
-        _TABLE = ShiftModel.load(path)
-    return _TABLE
+        model = model.with_trees(LearnedCorrection.load(trees_path))
+    return model
 
 
 def load_search_model() -> ShiftModel:
-    """The table alone: the fast predictor every search strategy scores with
-    (thousands of structures a second).  Loaded once per process."""
-    return _load_table()
+    """The shipped table alone: the fast predictor every search strategy
+    scores with (thousands of structures a second).  Loaded once per process."""
+    global _TABLE
+    if _TABLE is None:
+        _TABLE = load_model(kind="table")
+    return _TABLE
 
 
 def load_default_model() -> ShiftModel:
     """The best shipped predictor, loaded once per process (lazily): the
-    table with the learned correction attached when the package ships it
-    (see `use_predictor`).  Used by `elucidate predict`, the bench of the
-    predictor and the final ranking of a solve's candidates."""
+    table with the learned correction attached when the package ships it.
+    Used by `elucidate predict` and by a solve's ``rerank="trees"``; shares
+    the table's arrays with `load_search_model`."""
     global _DEFAULT
     if _DEFAULT is None:
-        table = _load_table()
+        table = load_search_model()
         trees_path = default_trees_path()
-        if _DEFAULT_KIND == "table+trees" or (_DEFAULT_KIND == "auto" and trees_path.exists()):
-            if not trees_path.exists():
-                from ..errors import InputError
-
-                raise InputError(f"the learned correction {trees_path} is missing; build it with "
-                                 "`elucidate build-trees --data TRAIN.jsonl.gz` or use the table alone")
+        if trees_path.is_file():
             from .learned import LearnedCorrection
 
             _DEFAULT = table.with_trees(LearnedCorrection.load(trees_path))
@@ -448,8 +442,9 @@ def table_version(meta: dict) -> str:
 
 
 def default_predictor_label() -> str:
-    """What ranks a solve's candidates: ``"table"`` or ``"table+trees <version>"``
-    (the learned correction's build date and training-data checksum prefix)."""
+    """The best shipped predictor (`load_default_model`): ``"table"`` or
+    ``"table+trees <version>"`` (the learned correction's build date and
+    training-data checksum prefix)."""
     model = load_default_model()
     if model.trees is None:
         return "table"

@@ -22,7 +22,6 @@ Steps (deterministic given the seed; needs the optional ``train`` extra,
 from __future__ import annotations
 
 import datetime as _dt
-import gzip
 import json
 import time
 from dataclasses import asdict, dataclass
@@ -33,16 +32,13 @@ import numpy as np
 from rdkit import Chem
 
 from ..errors import InputError
-from .build import (ATTRIBUTION, BuildSettings, _cache_path, _calibrate, _fallback_predict,
-                    _file_digest, _fit_fallback, _group_stats, _read_corpus, _table_loo,
-                    build_table)
+from .build import (_EXACT_LOO_MAX, ATTRIBUTION, BuildSettings, _file_digest, _group_stats, _loo_predict,
+                    _read_corpus, iter_assigned_training)
 from .codes import MAX_SPHERE, _shell_steps, graph_from_mol, sphere_codes
 from .learned import (DESCRIPTOR_NAMES, FEATURE_NAMES, TABLE_FEATURE_NAMES, LearnedCorrection,
                       TreeEnsemble, atom_descriptors, table_features)
 
 __all__ = ["TrainSettings", "build_trees_command", "sigma_calibration", "train_learned"]
-
-_EXACT_LOO_MAX = 40
 
 
 @dataclass(frozen=True)
@@ -82,14 +78,14 @@ def _loo_spheres(corpus, y):
         gid_rows = np.repeat(np.arange(len(uniq)), gcnt)
         pair_rows = gid_rows * n_const + const[rows]
         pu, pc = np.unique(pair_rows, return_counts=True)
-        pair_all = pos * n_const + const
-        own = pc[np.searchsorted(pu, pair_all)]
+        pidx = np.searchsorted(pu, pos * n_const + const)  # each carbon's (group, own constitution)
+        own = pc[pidx]
         # own sums for exact LOO mean / std
-        s1 = np.bincount(np.searchsorted(pu, pair_rows), weights=y[rows], minlength=len(pu))
-        s2 = np.bincount(np.searchsorted(pu, pair_rows), weights=y[rows] ** 2, minlength=len(pu))
+        prow = np.searchsorted(pu, pair_rows)
+        s1 = np.bincount(prow, weights=y[rows], minlength=len(pu))
+        s2 = np.bincount(prow, weights=y[rows] ** 2, minlength=len(pu))
         g1 = np.bincount(gid_rows, weights=y[rows], minlength=len(uniq))
         g2 = np.bincount(gid_rows, weights=y[rows] ** 2, minlength=len(uniq))
-        pidx = np.searchsorted(pu, pair_all)
         other = gcnt[pos] - own
         ok = other > 0
         o = np.maximum(other, 1)
@@ -110,28 +106,14 @@ def _loo_spheres(corpus, y):
     return med, cnt, std
 
 
-def _assigned_y(corpus, data_path, cache_dir, progress):
-    path = _cache_path(cache_dir, _file_digest(data_path), None)
-    if not path.exists():
-        if progress:
-            progress("no recovered assignment cached: running the table build first")
-        import tempfile
-
-        with tempfile.TemporaryDirectory() as tmp:
-            build_table(data_path, Path(tmp) / "table.npz", cache_dir=cache_dir, progress=progress)
-    per = []
-    with gzip.open(path, "rt", encoding="utf-8") as fh:
-        for line in fh:
-            obj = json.loads(line)
-            per.append((obj["smiles"], {int(k): float(v) for k, v in obj["shifts"].items()}))
+def _assigned_y(corpus, data_path, cache_dir):
+    """The recovered assignment of every corpus carbon (`iter_assigned_training`,
+    which runs the table build first when its cache is missing)."""
+    per = list(iter_assigned_training(data_path, cache_dir))
     if len(per) != len(corpus.smiles):
-        raise InputError(f"the cached assignment {path} does not match the training data; "
-                         "delete it and rebuild the table")
-    y = np.empty(len(corpus.record))
-    for c, (r, ai) in enumerate(zip(corpus.record.tolist(), corpus.rdkit_index.tolist())):
-        smi, shifts = per[r]
-        y[c] = shifts[ai]
-    return y
+        raise InputError("the cached assignment does not match the training data; delete cache/assigned-* "
+                         "and rebuild the table")
+    return np.array([per[r][1][ai] for r, ai in zip(corpus.record.tolist(), corpus.rdkit_index.tolist())])
 
 
 def _descriptors(corpus, progress):
@@ -155,22 +137,10 @@ def _descriptors(corpus, progress):
     return out
 
 
-def _table_part(corpus, y, settings: BuildSettings):
-    """Leave-one-constitution-out blended table shift, fallback, sphere."""
-    valid = np.ones(len(y), dtype=bool)
-    sphere, med, cnt, spr, up = _table_loo(corpus, y, valid)
-    fb = np.zeros(len(y))
-    fold = corpus.const % 2
-    for f in (0, 1):
-        base, w, hm = _fit_fallback(corpus, y, valid & (fold != f), settings.ridge_lambda)
-        fb = np.where(fold == f, _fallback_predict(corpus, base, w, hm), fb)
-    _, _, pred = _calibrate(sphere, med, cnt, up, fb, y, valid, spr, corpus.hydrogens)
-    return pred, fb, sphere
-
-
 def feature_matrix(corpus, y, progress=None):
     """Training features (rows in corpus order) and the table shift."""
-    t, fb, sphere = _table_part(corpus, y, BuildSettings())
+    # leave-one-constitution-out blended table shift (fallback cross-fitted on two folds)
+    t, _, _, sphere, fb = _loo_predict(corpus, y, np.ones(len(y), dtype=bool), BuildSettings(), cross_fit=True)
     if progress:
         progress(f"table LOO MAE {np.mean(np.abs(t - y)):.3f} ppm")
     med, cnt, std = _loo_spheres(corpus, y)
@@ -252,7 +222,7 @@ def train_learned(data_path, output_path=None, settings=None, cache_dir=None, pr
     table_path = Path(table_path) if table_path else default_table_path()
     t0 = time.time()
     corpus, _ = _read_corpus(data_path, limit, BuildSettings().min_feature_count, progress)
-    y = _assigned_y(corpus, data_path, cache_dir, progress)
+    y = _assigned_y(corpus, data_path, cache_dir)
     x, t = feature_matrix(corpus, y, progress)
     target = y - t
     if progress:
