@@ -36,6 +36,7 @@ from elucidate.rank.calibration import (
     stop_features,
     load_calibration,
 )
+from elucidate.search.sampling import STOP_BELOW
 
 
 def _rows(paths):
@@ -173,7 +174,8 @@ def fit(rows, out, time_limit, sampling_only, keep_weights, plausibility_weight)
         provenance["plausibility_weight"] = f"kept ({kept.plausibility_weight}; refit gave {cal.plausibility_weight})"
         provenance["weights_fitted"] = kept.provenance.get("weights_fitted") or kept.provenance.get("fitted")
         cal = dataclasses.replace(cal, fit_weight=kept.fit_weight, prior_weight=kept.prior_weight,
-                                  plausibility_weight=kept.plausibility_weight, provenance=provenance)
+                                  plausibility_weight=kept.plausibility_weight, provenance=provenance,
+                                  stop_logit_2d=kept.stop_logit_2d)
     if sampling_only:
         kept = load_calibration()
         provenance = dict(cal.provenance)
@@ -203,9 +205,78 @@ def heldout_start(out):
     weights stay (they decide the ranking the runs record)."""
     import dataclasses
 
-    cal = dataclasses.replace(load_calibration(), stop_logit=None, listed_logit=None)
+    cal = dataclasses.replace(load_calibration(), stop_logit=None, listed_logit=None, stop_logit_2d=None)
     Path(out).write_text(json.dumps(cal.to_dict(), indent=1) + "\n", encoding="utf-8")
     click.echo(f"wrote {out}")
+
+
+def _simulate_stop(rows, model, below):
+    """Replay each run's rounds under an early-stop model: (stopped at
+    round k or never, a better structure came later, seconds at the stop)."""
+    out = []
+    for r in rows:
+        trace = r.get("trace") or []
+        if not trace:
+            continue
+        final = trace[-1][1]
+        stop = None
+        for k, t in enumerate(trace):
+            x = stop_features(t[3], t[5], r["heavy_atoms"], k + 1)
+            chance = 1.0 / (1.0 + np.exp(-(model[0] + sum(w * v for w, v in zip(model[1:], x)))))
+            if chance < below:
+                stop = k
+                break
+        if stop is None:
+            out.append((None, False, r["elapsed_s"]))
+        else:
+            out.append((stop, final < trace[stop][1] - 1e-6, trace[stop][0]))
+    return out
+
+
+@main.command("fit-stop-2d")
+@click.argument("rows", nargs=-1, required=True, type=click.Path(exists=True, dir_okay=False))
+@click.option("--out", default=str(DEFAULT_CALIBRATION_PATH), show_default=True,
+              help="Calibration file to write; its other parameters are kept from the shipped one.")
+@click.option("--folds", default=5, show_default=True, help="Folds (by run) of the out-of-fold replay.")
+def fit_stop_2d(rows, out, folds):
+    """Fit the early-stop model used with 2D correlations (stop_logit_2d) on held-out runs made with
+    correlations and both early stops off (`heldout-start`, then `elucidate bench ... --correlations
+    synthetic`), keep everything else of the shipped calibration, and replay the runs out of fold:
+    how often the stop would have come before a better structure, and the median time at the stop."""
+    import dataclasses
+    import statistics
+
+    data = [r for r in _rows(rows) if r.get("correlation_rows") and r.get("trace")]
+    if not data:
+        raise click.UsageError("no row was run with correlations and has a sampling trace; run "
+                               "`elucidate bench ... --correlations synthetic -o ROWS` after `heldout-start`")
+    if any(r.get("ended") not in (None, "time limit") for r in data):
+        raise click.UsageError("some runs stopped early; make them after `heldout-start` (both early stops off)")
+    x, y = _stop_data(data)
+    if len(x) < 20 or not 0 < sum(y) < len(y):
+        raise click.UsageError(f"{len(x)} rounds, {sum(y)} followed by a better structure: too few to fit; run more cases")
+    replay = []
+    for k in range(folds):
+        train = [r for i, r in enumerate(data) if i % folds != k]
+        test = [r for i, r in enumerate(data) if i % folds == k]
+        tx, ty = _stop_data(train)
+        replay += _simulate_stop(test, fit_logistic(tx, ty), STOP_BELOW)
+    model = tuple(round(float(v), 4) for v in fit_logistic(x, y))
+    lost = sum(1 for _k, worse, _t in replay if worse)
+    stopped = sum(1 for k, _w, _t in replay if k is not None)
+    click.echo(f"{len(data)} runs, {len(x)} rounds ({sum(y)} followed by a better structure); out of fold: "
+               f"{stopped} runs stopped early, {lost} of them before a better structure; median time at the stop "
+               f"or end {statistics.median(t for _k, _w, t in replay):.1f} s (runs to the limit: "
+               f"{statistics.median(r['elapsed_s'] for r in data):.1f} s)")
+    kept = load_calibration()
+    provenance = dict(kept.provenance)
+    provenance["stop_logit_2d"] = (
+        f"fitted {datetime.date.today().isoformat()} on {len(data)} held-out runs with synthetic 2D correlations "
+        f"(HSQC + HMBC), both early stops off; out-of-fold replay: {stopped} stopped early, {lost} before a "
+        "better structure")
+    cal = dataclasses.replace(kept, stop_logit_2d=model, provenance=provenance)
+    Path(out).write_text(json.dumps(cal.to_dict(), indent=1) + "\n", encoding="utf-8")
+    click.echo(f"stop_logit_2d = {list(model)} written to {out}")
 
 
 @main.command()

@@ -21,6 +21,7 @@ from elucidate.rank.calibration import (
     fit_listed_model,
     fit_score_weights,
     listed_chance,
+    better_chance,
     listed_probabilities,
     load_calibration,
 )
@@ -132,6 +133,24 @@ def test_shipped_calibration_is_fitted_on_held_out_runs():
     # the raw t-likelihood over-states certainty for correlated errors: a < 1 (common practice, no source)
     assert 0.05 < cal.fit_weight <= 1.5 and 0 <= cal.prior_weight < 5
     assert 0.8 < cal.listed_when_complete <= 1
+
+
+def test_early_stop_with_correlations_uses_its_own_model(tmp_path):
+    # the model fitted on runs with 2D correlations is used only when the
+    # energy includes them, and falls back to the plain model when absent
+    # (definition of the two fields; common practice, no source)
+    plain = (0.0, 0.0, 0.0, 0.0, 0.0)  # chance 0.5 whatever the state
+    sharp = (-10.0, 0.0, 0.0, 0.0, 0.0)  # chance ~ 0
+    cal = Calibration(stop_logit=plain, stop_logit_2d=sharp)
+    assert better_chance(1, 2, 2, 15, cal) == pytest.approx(0.5)
+    assert better_chance(1, 2, 2, 15, cal, correlations=True) < 1e-4
+    alone = Calibration(stop_logit=plain)
+    assert better_chance(1, 2, 2, 15, alone, correlations=True) == pytest.approx(0.5)
+    assert better_chance(1, 2, 2, 15, Calibration(), correlations=True) is None
+    path = tmp_path / "cal.json"
+    path.write_text(json.dumps(cal.to_dict()))
+    back = load_calibration(path)
+    assert back.stop_logit_2d == sharp and back.stop_logit == plain
 
 
 def test_recalibrated_row_reorders_by_new_weights():

@@ -99,6 +99,9 @@ class Calibration:
     stop_logit: tuple[float, float, float, float, float] | None = None
     provenance: dict = field(default_factory=dict, compare=False)
     plausibility_weight: float = PROVISIONAL_PLAUSIBILITY_WEIGHT
+    #: early stop of sampling when the energy includes 2D correlations (the
+    #: same features, fitted on runs with correlations); None: ``stop_logit``
+    stop_logit_2d: tuple[float, float, float, float, float] | None = None
 
     def __post_init__(self):
         if not (self.fit_weight > 0 and self.prior_weight >= 0 and self.plausibility_weight >= 0):
@@ -118,6 +121,7 @@ class Calibration:
             "listed_logit": list(self.listed_logit) if self.listed_logit is not None else None,
             "sampled_logit": list(self.sampled_logit) if self.sampled_logit is not None else None,
             "stop_logit": list(self.stop_logit) if self.stop_logit is not None else None,
+            "stop_logit_2d": list(self.stop_logit_2d) if self.stop_logit_2d is not None else None,
             "provenance": self.provenance,
         }
 
@@ -142,6 +146,7 @@ def load_calibration(path: str | Path | None = None) -> Calibration:
             logit = d.get("listed_logit")
             sampled = d.get("sampled_logit")
             stop = d.get("stop_logit")
+            stop2 = d.get("stop_logit_2d")
             _LOADED[key] = Calibration(
                 fit_weight=float(d["fit_weight"]),
                 prior_weight=float(d["prior_weight"]),
@@ -151,6 +156,7 @@ def load_calibration(path: str | Path | None = None) -> Calibration:
                 stop_logit=tuple(float(x) for x in stop) if stop is not None else None,
                 provenance=d.get("provenance", {}),
                 plausibility_weight=float(d.get("plausibility_weight", PROVISIONAL_PLAUSIBILITY_WEIGHT)),
+                stop_logit_2d=tuple(float(x) for x in stop2) if stop2 is not None else None,
             )
     return _LOADED[key]
 
@@ -254,17 +260,23 @@ def confident_margin(heavy_atoms: int, calibration: Calibration, below: float = 
 
 
 def better_chance(since_gain: int, total_hits: int, rounds: int, heavy_atoms: int,
-                  calibration: Calibration) -> float | None:
+                  calibration: Calibration, correlations: bool = False) -> float | None:
     """Calibrated chance that more annealing (to the time limit) finds a
     structure better than the best so far; None without a fitted model.
 
     A logistic model of the sampling state (rounds since the best last
     improved, chains that ended at the best, rounds so far, size), fitted on
     held-out runs that ran to the time limit (``scripts/fit_calibration.py``).
+    With ``correlations`` (the energy includes 2D correlations, which make
+    the best structure stand out sooner) the model fitted on runs with
+    correlations is used, ``stop_logit_2d``, when the calibration has one.
     """
-    if calibration.stop_logit is None:
+    model = calibration.stop_logit
+    if correlations and calibration.stop_logit_2d is not None:
+        model = calibration.stop_logit_2d
+    if model is None:
         return None
-    d0, *ws = calibration.stop_logit
+    d0, *ws = model
     return _sigmoid(d0 + sum(w * x for w, x in zip(ws, stop_features(since_gain, total_hits, heavy_atoms, rounds))))
 
 

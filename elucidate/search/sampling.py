@@ -348,7 +348,8 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
         best_energy = new_best
         best_smiles = min(elite.items(), key=lambda kv: (kv[1][0], kv[0]))[0] if elite else None
         total_hits = chain_bests.get(best_smiles, 0)
-        chance = better_chance(since_gain, total_hits, len(trace) + 1, problem.formula.heavy_atoms, cal)
+        chance = better_chance(since_gain, total_hits, len(trace) + 1, problem.formula.heavy_atoms, cal,
+                               correlations=problem.evidence is not None)
         trace.append(RoundTrace(time.monotonic() - problem.start, best_energy,
                                 sum(1 for s in round_best if s == best_smiles), since_gain, len(specs),
                                 total_hits, chance))

@@ -55,9 +55,10 @@ PLAN_SHARE = 0.25
 #: ... or when it has found nothing new for this share of the time limit.
 PLAN_STALL_SHARE = 0.05
 #: With 2D correlations the cost-bounded strategies, which rank by the 13C
-#: approximate cost alone, get this fraction of their first-pass and plan
-#: shares: the annealing is the strategy whose energy uses the correlations.
-EVIDENCE_SHARE_FACTOR = 0.5
+#: approximate cost alone, get this fraction of their first-pass, plan and
+#: plan-stall shares: the annealing is the strategy whose energy uses the
+#: correlations (0.5 before 2026-12-03, measured in docs/correlations.md).
+EVIDENCE_SHARE_FACTOR = 0.25
 
 
 def rank_key(item: ScoredStructure):
@@ -213,7 +214,7 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
                 # the plan search hands over to sampling at this point, or
                 # earlier when its yield dries up
                 plan_deadline = start + problem.time_limit * PLAN_SHARE * factor
-                stall = problem.time_limit * PLAN_STALL_SHARE
+                stall = problem.time_limit * PLAN_STALL_SHARE * factor
             else:
                 plan_deadline = max(gen_deadline, start + problem.time_limit - 1.0 - SCORE_S * len(found))
             plan_runs = (executor.run_plans(pool_size, plan_deadline, stall) if executor
