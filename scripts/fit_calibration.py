@@ -68,7 +68,7 @@ def _stop_data(data):
     return xs, ys
 
 
-def _fit(data, time_limit, plausibility_weight=None):
+def _fit(data, time_limit, plausibility_weight=None, mode="mult"):
     """Calibration fitted on bench rows that carry fit_terms.
 
     Rows of this version carry three terms per candidate (assignment cost,
@@ -112,7 +112,7 @@ def _fit(data, time_limit, plausibility_weight=None):
             "method": "conditional logit weights + logistic listed-answer model (rank/calibration.py)",
             "plausibility_weight": ("fitted" if fixed is None else f"held at {plausibility_weight} (given)")
             if k == 3 else "provisional (rows carry no plausibility term)",
-            "data": "elucidation runs (mult mode) over training constitutions held out from a rebuilt "
+            "data": f"elucidation runs ({mode} mode) over training constitutions held out from a rebuilt "
                     "shift table (one in 20 by hash of the canonical SMILES); open nmrshiftdb2 data "
                     "(Steinbeck, Krause, Kuhn, J. Chem. Inf. Comput. Sci. 2003, 43, 1733)",
             "time_limit_s": time_limit,
@@ -152,7 +152,10 @@ def main():
 @click.option("--plausibility-weight", type=float, default=None,
               help="Hold the plausibility weight at this value and fit the other two score weights with it "
                    "(the list's plausible company is a product choice: DEVELOPERS.md).")
-def fit(rows, out, time_limit, sampling_only, keep_weights, plausibility_weight):
+@click.option("--mode", type=click.Choice(["mult", "plain"]), default="mult", show_default=True,
+              help="Mode the held-out runs were made in (recorded in the provenance): plain runs make "
+                   "elucidate/data/calibration_plain.json, used for 13C-only peak lists.")
+def fit(rows, out, time_limit, sampling_only, keep_weights, plausibility_weight, mode):
     """Fit weights and the listed-answer model on held-out bench rows."""
     import dataclasses
 
@@ -161,7 +164,7 @@ def fit(rows, out, time_limit, sampling_only, keep_weights, plausibility_weight)
     data = [r for r in _rows(rows) if r.get("fit_terms")]
     if not data:
         raise click.UsageError("no row carries fit_terms; run `elucidate bench ... -o ROWS` with this version")
-    cal = _fit(data, time_limit, plausibility_weight)
+    cal = _fit(data, time_limit, plausibility_weight, mode)
     if keep_weights:
         kept = load_calibration()
         provenance = dict(cal.provenance)
