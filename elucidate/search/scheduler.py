@@ -168,7 +168,8 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     exhausted = False  # the whole constrained space was searched
     reports: list[StrategyReport] = []
     sampled = None
-    needed = confident_margin(problem.formula.heavy_atoms, cal) if problem.mode == "auto" else None
+    needed = (confident_margin(problem.formula.heavy_atoms, cal)
+              if problem.mode == "auto" and problem.may_stop_early else None)
     scored_cache: dict = {}
     confident = False
     t0 = time.monotonic()
@@ -256,7 +257,7 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
         return cal.fit_weight * item.fit_cost + cal.prior_weight * item.prior + cal.plausibility_weight * item.plausibility
 
     scored, proof, n_scored, pool_cut = score_pool(problem, found, proof, already, energy,
-                                                   needed if problem.mode == "auto" else None)
+                                                   needed)
     reports.append(StrategyReport("full scoring of the cheapest structures", n_scored, time.monotonic() - t2))
     if sampled is not None:
         scored = _merge_scored(scored, sampled.scored)
