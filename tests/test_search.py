@@ -93,3 +93,21 @@ def test_auto_search_says_what_it_did_and_under_which_assumptions():
     assert any("implausible motifs" in a for a in r.assumptions)
     assert r.reference_neighbours and all("smiles" in n for n in r.reference_neighbours)
     assert len(r.candidates) >= 5
+
+
+def test_confident_stop_needs_multiplicities():
+    # the listed-answer model behind the cost-bounded search's confident stop
+    # is fitted on runs with DEPT multiplicities; a 13C-only list (no line
+    # with its multiplicity) deepens to the end instead (definition; common
+    # practice, no source)
+    from types import SimpleNamespace
+
+    from elucidate.search.base import SearchProblem
+    from elucidate.spectrum.peaklist import Peak
+
+    def may(peaks):
+        return SearchProblem.may_stop_confident.fget(SimpleNamespace(peaks=tuple(peaks)))
+
+    assert not may([Peak(128.5, None), Peak(21.4, None)])
+    assert may([Peak(128.5, 1), Peak(21.4, None)])
+    assert may([Peak(128.5, 1), Peak(21.4, 3)])

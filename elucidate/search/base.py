@@ -86,14 +86,14 @@ class SearchProblem:
         return self.constraints.rule is not None and self.pool_size > 0
 
     @property
-    def may_stop_early(self) -> bool:
-        """Whether the calibrated early stops apply: at least one line carries
-        its multiplicity.  Their models (the listed-answer model behind the
-        cost-bounded search's confident stop, and the annealing's stop model)
-        are fitted on runs with multiplicities; with shifts only the
-        approximate cost separates less and the models are over-confident
-        (held-out 13C-only runs: 4.0 % stated against 11.2 % observed for an
-        answer not listed; docs/benchmark.md)."""
+    def may_stop_confident(self) -> bool:
+        """Whether the cost-bounded search may stop early because it is
+        confident: at least one line carries its multiplicity.  The
+        listed-answer model behind that stop is fitted on runs with
+        multiplicities; with shifts only the approximate cost separates less
+        and the model over-states certainty (held-out 13C-only runs: 4.0 %
+        stated against 11.2 % observed for an answer not listed;
+        docs/benchmark.md).  The annealing's stop is not affected."""
         return any(p.hydrogens is not None for p in self.peaks)
 
     def score(self, smiles: str, mol: Chem.Mol, smiles_written: bool = True) -> ScoredStructure | None:

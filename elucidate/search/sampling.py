@@ -356,7 +356,7 @@ def sample_structures(problem: SearchProblem, state, executor, found: dict,
         problem.report("annealing", len(elite))
         if any(r.cut for r in results):
             break
-        if budget is None and chance is not None and chance < STOP_BELOW and problem.may_stop_early:
+        if budget is None and chance is not None and chance < STOP_BELOW:
             # the calibrated chance that the rest of the time finds a better
             # structure is too small to be worth the wait
             ended = "confident"

@@ -169,7 +169,7 @@ def _steered(problem: SearchProblem, all_dists: int) -> SearchOutcome:
     reports: list[StrategyReport] = []
     sampled = None
     needed = (confident_margin(problem.formula.heavy_atoms, cal)
-              if problem.mode == "auto" and problem.may_stop_early else None)
+              if problem.mode == "auto" and problem.may_stop_confident else None)
     scored_cache: dict = {}
     confident = False
     t0 = time.monotonic()
