@@ -29,6 +29,7 @@ from elucidate.rank.calibration import (
     DEFAULT_CALIBRATION_PATH,
     PROVISIONAL_PLAUSIBILITY_WEIGHT,
     Calibration,
+    better_chance,
     fit_listed_model,
     fit_logistic,
     fit_score_weights,
@@ -153,8 +154,8 @@ def main():
               help="Hold the plausibility weight at this value and fit the other two score weights with it "
                    "(the list's plausible company is a product choice: DEVELOPERS.md).")
 @click.option("--mode", type=click.Choice(["mult", "plain"]), default="mult", show_default=True,
-              help="Mode the held-out runs were made in (recorded in the provenance): plain runs make "
-                   "elucidate/data/calibration_plain.json, used for 13C-only peak lists.")
+              help="Mode the held-out runs were made in, recorded in the provenance (a fit on 13C-only "
+                   "runs is a measurement: no plain-mode calibration ships; docs/benchmark.md).")
 def fit(rows, out, time_limit, sampling_only, keep_weights, plausibility_weight, mode):
     """Fit weights and the listed-answer model on held-out bench rows."""
     import dataclasses
@@ -224,9 +225,7 @@ def _simulate_stop(rows, model, below):
         final = trace[-1][1]
         stop = None
         for k, t in enumerate(trace):
-            x = stop_features(t[3], t[5], r["heavy_atoms"], k + 1)
-            chance = 1.0 / (1.0 + np.exp(-(model[0] + sum(w * v for w, v in zip(model[1:], x)))))
-            if chance < below:
+            if better_chance(t[3], t[5], k + 1, r["heavy_atoms"], Calibration(stop_logit=model)) < below:
                 stop = k
                 break
         if stop is None:

@@ -17,11 +17,11 @@ from elucidate.pipeline import SolveSettings, solve
 from elucidate.rank.calibration import (
     DEFAULT_CALIBRATION_PATH,
     Calibration,
+    better_chance,
     calibrated_scores,
     fit_listed_model,
     fit_score_weights,
     listed_chance,
-    better_chance,
     listed_probabilities,
     load_calibration,
 )

@@ -90,9 +90,9 @@ class QuickCost:
         self.n_lines = len(rule.line_hydrogens)
         self._atoms: dict = {}
         # line cover per multiset of rows, keyed by the rows' ids: valid while
-        # the rows live in ``_atoms``, so both are cleared together
+        # the rows live in ``_atoms``, so both are cleared together, and only
+        # between calls (a row of the call in hand is then always in ``_atoms``)
         self._covers: dict = {}
-        self._generation = 0
 
     def atom(self, label: str, h: int, nbs: tuple):
         """(rarity, line-cost row or None) of one atom's environment."""
@@ -112,10 +112,6 @@ class QuickCost:
                     row = [float(x) if x == x else math.inf for x in vec]
                 row = CoverRow(row)
             hit = (rarity, row)
-            if len(self._atoms) > 500_000:
-                self._atoms.clear()
-                self._covers.clear()
-                self._generation += 1
             self._atoms[key] = hit
         return hit
 
@@ -126,7 +122,9 @@ class QuickCost:
         n = len(labels)
         total = 0.0
         rows = []
-        generation = self._generation
+        if len(self._atoms) > 500_000 or len(self._covers) > _COVER_MEMO_SIZE:
+            self._atoms.clear()
+            self._covers.clear()
         for i in range(n):
             row = bonds[i]
             nbs = tuple(sorted((labels[j], hs[j], row[j]) for j in range(n) if row[j]))
@@ -137,13 +135,9 @@ class QuickCost:
         # the cover depends only on the multiset of the carbons' rows, which
         # are shared per environment: chains revisit the same multisets often
         # (about 45 % of calls in a 17-atom run), so keep the values
-        if generation != self._generation:  # rows of both generations: ids not unique later
-            return total + min(min_offset_cover([(0.0, rows)], self.n_lines), 1e4)
         key = tuple(sorted(map(id, rows)))
         cover = self._covers.get(key)
         if cover is None:
-            if len(self._covers) > _COVER_MEMO_SIZE:
-                self._covers.clear()
             cover = self._covers[key] = min(min_offset_cover([(0.0, rows)], self.n_lines), 1e4)
         return total + cover
 
